@@ -1,0 +1,159 @@
+// The cycle loop: simulates a circuit one switching period at a time with the exact
+// piecewise-linear engine and reports per-cycle metrics computed from exact integrals.
+//
+//   pulsewise::Simulation sim(circuit, options);
+//   pulsewise::RunSummary summary = sim.run(&observer);
+//   std::cout << summary.brief_report();
+#pragma once
+
+#include <Eigen/Dense>
+#include <cstddef>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "pulsewise/circuit.hpp"
+#include "pulsewise/configuration_model.hpp"
+#include "pulsewise/observer.hpp"
+
+namespace pulsewise {
+
+// Options of one run. Every field has a default; validate() explains what is wrong.
+struct SimulationOptions {
+  // Length of one cycle of the cycle loop, s. 0: the period of the first modulator.
+  double switching_period_s = 0.0;
+  // Number of switching periods to simulate, > 0.
+  long periods = 100;
+  // Sub-steps per switching period on which event functions are bracketed, >= 1. The step is
+  // further shortened in configurations whose fastest mode would turn by more than
+  // max_step_norm radians within it.
+  int substeps_per_period = 8;
+  // Bound on ||M h||_1 of a sub-step (M the augmented system matrix); keeps the Taylor expansion
+  // used inside a sub-step exact to machine precision and at most one extremum per sub-step.
+  double max_step_norm = 0.5;
+  // Events are located to this fraction of the switching period.
+  double event_time_tolerance = 1e-14;
+  // Relative tolerance (of the running signal magnitude) for device conditions at an event.
+  double device_condition_tolerance = 1e-9;
+  // Chattering guard: a run that needs more events than this in one period stops.
+  int max_events_per_period = 200;
+  // Cycling guard of the consistency search after an event.
+  int max_consistency_iterations = 64;
+  // Stop when the state changes by less than steady_state_tolerance (relative to its magnitude)
+  // over steady_state_periods consecutive periods.
+  bool stop_at_steady_state = false;
+  double steady_state_tolerance = 1e-9;
+  int steady_state_periods = 5;
+  // Signals to compute metrics for (and to hand to observers). Empty: every state variable
+  // (inductor currents, capacitor voltages) and every node voltage.
+  std::vector<std::string> recorded_signals;
+  // The output signal for overshoot and settling figures, e.g. "out.v". Empty: none.
+  std::string output_signal;
+  // Settling band as a fraction of the final cycle average of the output.
+  double settling_band = 0.02;
+  // A DCM idle interval shorter than this fraction of the period counts as the CCM/DCM boundary.
+  double boundary_tolerance = 1e-3;
+  // Cache configuration models and transition data (off only to check the cache).
+  bool cache = true;
+  // Per-cycle energy from sources, change in stored energy and energy dissipated.
+  bool energy_accounting = true;
+
+  // Throws InputError (kInvalidOption) naming the option and the fix.
+  void validate() const;
+};
+
+enum class ConductionMode { kNone, kCcm, kDcm, kBoundary };
+const char* to_string(ConductionMode mode);
+
+// Exact per-cycle statistics of one signal.
+struct SignalStats {
+  double average = 0.0;
+  double rms = 0.0;
+  double min = 0.0;
+  double max = 0.0;
+  double peak_to_peak() const { return max - min; }
+};
+
+// One stretch of the period spent in one configuration.
+struct ConfigurationInterval {
+  DevicePattern pattern = 0;
+  double fraction = 0.0;  // of the switching period
+};
+
+struct CycleMetrics {
+  long index = 0;
+  double start_time_s = 0.0;
+  ConductionMode mode = ConductionMode::kNone;
+  // Consecutive configurations of the period in order (consecutive equal patterns merged).
+  // intervals[0..2] are D1, D2, D3 of the textbook notation.
+  std::vector<ConfigurationInterval> intervals;
+  std::vector<SignalStats> signals;  // per recorded signal
+  long events = 0;
+  double energy_in_j = 0.0;          // delivered by the sources
+  double stored_energy_change_j = 0.0;
+  double dissipated_j = 0.0;         // in resistors, DCR, ESR, device resistances and drops
+  double state_change = 0.0;          // ||x(end) - x(start)|| relative to ||x||
+};
+
+enum class RunEnd {
+  kCompleted,                // all requested periods simulated
+  kSteadyState,              // stopped early at steady state
+  kChattering,               // too many events in one period
+  kNoConsistentConfiguration,  // the consistency search cycled
+  kInterruptedCurrent,        // a switch opened an inductor current with no freewheeling path
+  kZeroResistanceLoop,        // a configuration closed a loop of zero-resistance branches
+};
+const char* to_string(RunEnd end);
+
+struct StartupMetrics {
+  std::vector<std::string> inductors;
+  std::vector<double> peak_inductor_current_a;  // largest |i| over the run, per inductor
+  double output_peak = 0.0;                      // largest value of the output signal
+  double overshoot = 0.0;    // (output_peak - final average) / |final average|, >= 0
+  long settling_cycle = -1;  // first cycle from which the average stays inside the band
+  long steady_state_cycle = -1;  // cycle at which steady state was detected, -1 if never
+};
+
+struct RunSummary {
+  RunEnd end = RunEnd::kCompleted;
+  std::string message;
+  long cycles = 0;
+  long events = 0;
+  std::size_t configurations_built = 0;
+  std::size_t cache_hits = 0;
+  double wall_time_s = 0.0;
+  double end_time_s = 0.0;
+  std::vector<SignalInfo> recorded;
+  CycleMetrics last_cycle;
+  StartupMetrics startup;
+  Eigen::VectorXd final_state;
+  std::vector<std::string> state_names;
+
+  bool ok() const { return end == RunEnd::kCompleted || end == RunEnd::kSteadyState; }
+  // A few lines an engineer reads at a glance.
+  std::string brief_report() const;
+};
+
+class Simulation {
+ public:
+  // Throws InputError for a bad circuit or bad options.
+  Simulation(const Circuit& circuit, SimulationOptions options);
+  ~Simulation();
+  Simulation(Simulation&&) noexcept;
+  Simulation& operator=(Simulation&&) noexcept;
+
+  RunSummary run(Observer* observer = nullptr);
+
+  const CircuitModel& model() const;
+  const SimulationOptions& options() const;
+  // Start from this state instead of the elements' initial conditions.
+  void set_initial_state(const Eigen::VectorXd& x0);
+  // Describe a pattern: "S1 on, D1 off".
+  std::string describe(DevicePattern pattern) const;
+
+ private:
+  struct Impl;
+  std::unique_ptr<Impl> impl_;
+};
+
+}  // namespace pulsewise

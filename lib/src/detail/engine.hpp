@@ -1,0 +1,45 @@
+// Internal state of a run: the augmented per-configuration data, the event engine and the cycle
+// accumulators. Only simulation.cpp uses it.
+#pragma once
+
+#include <Eigen/Dense>
+#include <chrono>
+#include <map>
+#include <memory>
+#include <vector>
+
+#include "detail/gate_bank.hpp"
+#include "detail/taylor_piece.hpp"
+#include "pulsewise/simulation.hpp"
+
+namespace pulsewise::detail {
+
+// What the event engine needs of one configuration, over the augmented state
+// z = [x; u; du/dt of the ramping inputs].
+struct PatternData {
+  const ConfigurationModel* model = nullptr;
+  Eigen::MatrixXd M;        // dz/dt = M z
+  Eigen::MatrixXd recorded;  // rows: recorded signals
+  Eigen::MatrixXd events;    // rows: device conditions g >= 0 (one per diode)
+  Eigen::MatrixXd energy;    // rows: (v, i) of each element taking part in the energy balance
+  double max_step_s = 0.0;   // sub-step bound from ||M||_1
+};
+
+enum class EnergyRole { kSource, kDissipativeVi, kSeriesResistance };
+struct EnergyTerm {
+  EnergyRole role;
+  double resistance_ohm = 0.0;  // kSeriesResistance
+};
+
+// Per-cycle accumulators of exact integrals and extrema.
+struct CycleAccumulator {
+  std::vector<double> integral, square_integral, min, max;
+  std::vector<ConfigurationInterval> intervals;
+  double energy_in = 0, dissipated = 0, stored_start = 0;
+  double idle_time = 0;
+  bool natural_turn_off = false;
+  long events = 0;
+  void reset(std::size_t signals);
+};
+
+}  // namespace pulsewise::detail

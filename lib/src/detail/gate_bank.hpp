@@ -1,0 +1,45 @@
+// The gate signals of all modulators of a circuit, evaluated as exact functions of time: the
+// state of every gate just after t and the next edge after t. The event engine treats every
+// edge as a scheduled event.
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include "pulsewise/circuit.hpp"
+#include "pulsewise/configuration_model.hpp"
+
+namespace pulsewise::detail {
+
+class GateBank {
+ public:
+  // time_resolution_s: edges closer than this to t count as already passed at t.
+  GateBank(const Circuit& circuit, const std::vector<int>& devices, double time_resolution_s);
+
+  // Bits of the switches that are on just after t (diode bits are zero).
+  DevicePattern switch_pattern(double t) const;
+  // The first gate edge strictly after t (+ resolution), or +infinity.
+  double next_edge_after(double t) const;
+  // Mask of the switch bits in a DevicePattern.
+  DevicePattern switch_mask() const { return switch_mask_; }
+
+ private:
+  enum class Kind { kPwm, kHigh, kLow, kSchedule };
+  struct Gate {
+    std::string name;
+    Kind kind = Kind::kPwm;
+    double period_s = 0, duty = 0, phase = 0, dead_time_s = 0;
+    SoftStart soft_start;
+    const GateSchedule* schedule = nullptr;
+  };
+  bool on(const Gate& g, double t) const;
+  double next_edge(const Gate& g, double t) const;
+  double duty_of_period(const Gate& g, long k) const;
+
+  std::vector<Gate> gates_;
+  std::vector<std::pair<int, int>> switch_gate_;  // (device bit, gate index)
+  DevicePattern switch_mask_ = 0;
+  double resolution_s_;
+};
+
+}  // namespace pulsewise::detail

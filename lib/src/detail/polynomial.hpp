@@ -1,0 +1,109 @@
+// Scalar polynomials p(s) = sum_k a[k] s^k on the normalised piece time s in [0, 1]. Inside a
+// sub-step every signal of the circuit is such a polynomial (the truncated Taylor series of the
+// exact solution, accurate to machine precision), so integrals, extrema and crossings are found
+// on the polynomial directly.
+#pragma once
+
+#include <cmath>
+
+namespace pulsewise::detail::poly {
+
+inline double eval(const double* a, int order, double s) {
+  double v = a[order];
+  for (int k = order - 1; k >= 0; --k) v = v * s + a[k];
+  return v;
+}
+
+inline double derivative(const double* a, int order, double s) {
+  double v = 0.0;
+  for (int k = order; k >= 1; --k) v = v * s + k * a[k];
+  return v;
+}
+
+// Integral over [0, 1].
+inline double integral(const double* a, int order) {
+  double v = 0.0;
+  for (int k = 0; k <= order; ++k) v += a[k] / (k + 1);
+  return v;
+}
+
+// Integral of p(s) q(s) over [0, 1]: sum a_k b_l / (k + l + 1).
+inline double product_integral(const double* a, const double* b, int order) {
+  double v = 0.0;
+  for (int k = 0; k <= order; ++k) {
+    double inner = 0.0;
+    for (int l = 0; l <= order; ++l) inner += b[l] / (k + l + 1);
+    v += a[k] * inner;
+  }
+  return v;
+}
+
+// Root of f in [lo, hi] where f(lo) and f(hi) have opposite signs (or one is zero), by Newton's
+// method safeguarded with bisection (the bracket always shrinks; a Newton step that leaves it is
+// replaced by bisection). Converges quadratically near a simple root. `Value` gives f, `Slope` f'.
+template <class Value, class Slope>
+double safeguarded_newton(Value f, Slope df, double lo, double hi, double s_tolerance) {
+  double f_lo = f(lo);
+  if (f_lo == 0.0) return lo;
+  double s = 0.5 * (lo + hi);
+  for (int iter = 0; iter < 100; ++iter) {
+    const double fs = f(s);
+    if (fs == 0.0) return s;
+    if ((fs < 0) == (f_lo < 0)) {
+      lo = s;
+      f_lo = fs;
+    } else {
+      hi = s;
+    }
+    const double slope = df(s);
+    double next = slope != 0.0 ? s - fs / slope : 0.5 * (lo + hi);
+    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
+    if (std::abs(next - s) <= s_tolerance || hi - lo <= s_tolerance) return next;
+    s = next;
+  }
+  return s;
+}
+
+inline double root(const double* a, int order, double lo, double hi, double s_tolerance) {
+  return safeguarded_newton([&](double s) { return eval(a, order, s); },
+                            [&](double s) { return derivative(a, order, s); }, lo, hi,
+                            s_tolerance);
+}
+
+// Root of the derivative (an extremum) in [lo, hi], given a sign change of p' there.
+inline double stationary_point(const double* a, int order, double lo, double hi,
+                               double s_tolerance) {
+  auto second = [&](double s) {
+    double v = 0.0;
+    for (int k = order; k >= 2; --k) v = v * s + k * (k - 1) * a[k];
+    return v;
+  };
+  return safeguarded_newton([&](double s) { return derivative(a, order, s); }, second, lo, hi,
+                            s_tolerance);
+}
+
+// Earliest s in (0, 1] where p crosses from >= 0 to < -noise. Relies on at most one extremum of
+// p in [0, 1] (guaranteed in practice by the sub-step bound, see docs/method.md): the interval
+// splits at the stationary point into monotone parts, each searched in turn. Returns -1 when p
+// does not go below -noise.
+inline double first_downcrossing(const double* a, int order, double noise, double s_tolerance) {
+  const double p0 = eval(a, order, 0.0), p1 = eval(a, order, 1.0);
+  const double d0 = derivative(a, order, 0.0), d1 = derivative(a, order, 1.0);
+  double split = -1.0;
+  if ((d0 < 0) != (d1 < 0) && d0 != 0.0 && d1 != 0.0)
+    split = stationary_point(a, order, 0.0, 1.0, s_tolerance);
+  double lo = 0.0, p_lo = p0;
+  for (double hi : {split, 1.0}) {
+    if (hi <= lo) continue;
+    const double p_hi = hi == 1.0 ? p1 : eval(a, order, hi);
+    if (p_hi < -noise) {
+      if (p_lo <= 0.0) return lo;  // already violated at the start of the monotone part
+      return root(a, order, lo, hi, s_tolerance);
+    }
+    lo = hi;
+    p_lo = p_hi;
+  }
+  return -1.0;
+}
+
+}  // namespace pulsewise::detail::poly

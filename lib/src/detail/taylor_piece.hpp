@@ -1,0 +1,45 @@
+// One piece of the exact solution z(t0 + s h) = exp(M s h) z0, s in [0, 1], for the augmented
+// linear system dz/dt = M z (states, inputs and input slopes; see simulation.cpp).
+//
+// Method: the action of the matrix exponential on a vector by the truncated Taylor series,
+// evaluated on sub-steps short enough that ||M h||_1 <= theta (the sub-stepping of
+// A. H. Al-Mohy and N. J. Higham, "Computing the action of the matrix exponential, with an
+// application to exponential integrators", SIAM J. Sci. Comput. 33(2), 488-511, 2011). The
+// series is summed until two consecutive terms fall below the unit roundoff relative to the
+// running sum (their stopping test), which for theta = 0.5 takes about 14 terms. Keeping the
+// terms z_k = (M h)^k z0 / k! turns every linear functional of the state into a polynomial in s,
+// so events, integrals and extrema are found exactly on that polynomial. Cost per piece: one
+// matrix-vector product per term.
+#pragma once
+
+#include <Eigen/Dense>
+
+namespace pulsewise::detail {
+
+class TaylorPiece {
+ public:
+  static constexpr int kMaxOrder = 40;
+
+  explicit TaylorPiece(int dimension = 0) { resize(dimension); }
+  void resize(int dimension) { terms_.resize(dimension, kMaxOrder + 1); }
+
+  // Expand exp(M h s) z0. Returns false when the series did not converge within kMaxOrder terms
+  // (||M h|| far too large: a caller bug, the sub-step bound prevents it).
+  bool expand(const Eigen::MatrixXd& M, const Eigen::VectorXd& z0, double h);
+  // Restrict the piece to [0, s_end] and renormalise it to [0, 1].
+  void truncate(double s_end);
+
+  int order() const { return order_; }
+  double duration_s() const { return h_; }
+  // Column k holds z_k; the state at s is sum_k z_k s^k.
+  const Eigen::MatrixXd& terms() const { return terms_; }
+  void state_at(double s, Eigen::Ref<Eigen::VectorXd> z) const;
+  void end_state(Eigen::Ref<Eigen::VectorXd> z) const;
+
+ private:
+  Eigen::MatrixXd terms_;
+  int order_ = 0;
+  double h_ = 0.0;
+};
+
+}  // namespace pulsewise::detail

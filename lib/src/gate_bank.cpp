@@ -1,0 +1,106 @@
+#include "detail/gate_bank.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+namespace pulsewise::detail {
+
+namespace {
+constexpr double kNever = std::numeric_limits<double>::infinity();
+}
+
+GateBank::GateBank(const Circuit& circuit, const std::vector<int>& devices,
+                   double time_resolution_s)
+    : resolution_s_(time_resolution_s) {
+  for (const auto& m : circuit.pwm_modulators())
+    gates_.push_back({m.name, Kind::kPwm, 1.0 / m.frequency_hz, m.duty_cycle, m.phase, 0.0,
+                      m.soft_start, nullptr});
+  for (const auto& m : circuit.complementary_modulators()) {
+    for (Kind kind : {Kind::kHigh, Kind::kLow})
+      gates_.push_back({m.name + (kind == Kind::kHigh ? ".high" : ".low"), kind,
+                        1.0 / m.frequency_hz, m.duty_cycle, m.phase, m.dead_time_s,
+                        m.soft_start, nullptr});
+  }
+  for (const auto& s : circuit.gate_schedules())
+    gates_.push_back({s.name, Kind::kSchedule, 0, 0, 0, 0, {}, &s});
+  for (std::size_t bit = 0; bit < devices.size(); ++bit) {
+    const Element& e = circuit.elements()[devices[bit]];
+    if (e.kind != ElementKind::kSwitch) continue;
+    for (std::size_t g = 0; g < gates_.size(); ++g) {
+      if (gates_[g].name == e.gate) switch_gate_.emplace_back(bit, g);
+    }
+    switch_mask_ |= DevicePattern{1} << bit;
+  }
+}
+
+double GateBank::duty_of_period(const Gate& g, long k) const {
+  const SoftStart& s = g.soft_start;
+  if (s.periods <= 0) return g.duty;
+  const double progress = std::clamp(static_cast<double>(std::max(k, 0L)) / s.periods, 0.0, 1.0);
+  return s.initial_duty + (g.duty - s.initial_duty) * progress;
+}
+
+// On-interval of period k, relative to its start, for each kind of gate.
+bool GateBank::on(const Gate& g, double t) const {
+  const double tp = t + resolution_s_;
+  if (g.kind == Kind::kSchedule) {
+    bool state = g.schedule->initial_on;
+    for (const auto& [time, value] : g.schedule->changes) {
+      if (time > tp) break;
+      state = value;
+    }
+    return state;
+  }
+  const long k = static_cast<long>(std::floor(tp / g.period_s - g.phase));
+  const double start = (k + g.phase) * g.period_s;
+  const double tau = tp - start;
+  const double d = duty_of_period(g, k);
+  switch (g.kind) {
+    case Kind::kPwm:
+    case Kind::kHigh: return tau < d * g.period_s;
+    case Kind::kLow:
+      return tau >= d * g.period_s + g.dead_time_s && tau < g.period_s - g.dead_time_s;
+    case Kind::kSchedule: break;
+  }
+  return false;
+}
+
+double GateBank::next_edge(const Gate& g, double t) const {
+  const double tp = t + resolution_s_;
+  if (g.kind == Kind::kSchedule) {
+    for (const auto& change : g.schedule->changes)
+      if (change.first > tp) return change.first;
+    return kNever;
+  }
+  const long k = static_cast<long>(std::floor(tp / g.period_s - g.phase));
+  for (long period = k; period <= k + 1; ++period) {
+    const double start = (period + g.phase) * g.period_s;
+    const double d = duty_of_period(g, period);
+    double edges[4] = {start, start + d * g.period_s, kNever, kNever};
+    if (g.kind == Kind::kLow) {
+      edges[2] = start + d * g.period_s + g.dead_time_s;
+      edges[3] = start + g.period_s - g.dead_time_s;
+    }
+    double best = kNever;
+    for (double e : edges)
+      if (e > tp && e < best) best = e;
+    if (best < kNever) return best;
+  }
+  return kNever;
+}
+
+DevicePattern GateBank::switch_pattern(double t) const {
+  DevicePattern p = 0;
+  for (const auto& [bit, gate] : switch_gate_)
+    if (on(gates_[gate], t)) p |= DevicePattern{1} << bit;
+  return p;
+}
+
+double GateBank::next_edge_after(double t) const {
+  double best = kNever;
+  for (const auto& [bit, gate] : switch_gate_) best = std::min(best, next_edge(gates_[gate], t));
+  return best;
+}
+
+}  // namespace pulsewise::detail

@@ -1,0 +1,772 @@
+// The cycle loop and the event engine of the exact piecewise-linear path.
+//
+// Between events the circuit is the linear system of one configuration. Sources are affine in
+// time between breakpoints, so the augmented state z = [x; u; du/dt of ramping inputs] obeys
+// dz/dt = M z with M = [[A, B, 0], [0, 0, S], [0, 0, 0]] and the whole trajectory is exp(M t) z0.
+// Time advances in pieces bounded by the next scheduled event (gate edge, source breakpoint,
+// cycle end) and by the sub-step bound; on each piece every device condition g(s) >= 0 is a
+// polynomial and its first downward crossing is located by safeguarded Newton. After an event the
+// configuration is made consistent at t+ (see make_consistent()).
+#include "pulsewise/simulation.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <set>
+#include <sstream>
+
+#include "detail/engine.hpp"
+#include "detail/polynomial.hpp"
+
+namespace pulsewise {
+
+using detail::CycleAccumulator;
+using detail::EnergyRole;
+using detail::EnergyTerm;
+using detail::PatternData;
+namespace poly = detail::poly;
+
+void detail::CycleAccumulator::reset(std::size_t signals) {
+  integral.assign(signals, 0.0);
+  square_integral.assign(signals, 0.0);
+  min.assign(signals, std::numeric_limits<double>::infinity());
+  max.assign(signals, -std::numeric_limits<double>::infinity());
+  intervals.clear();
+  energy_in = dissipated = idle_time = 0.0;
+  natural_turn_off = false;
+  events = 0;
+}
+
+namespace {
+
+constexpr double kInf = std::numeric_limits<double>::infinity();
+
+// The piece handed to observers: polynomial coefficients of the recorded signals.
+class PolynomialPiece final : public PieceView {
+ public:
+  double t0 = 0, h = 0;
+  DevicePattern pat = 0;
+  int order = 0;
+  const Eigen::MatrixXd* coefficients = nullptr;  // rows: signals, columns: powers of s
+
+  double t_begin() const override { return t0; }
+  double t_end() const override { return t0 + h; }
+  DevicePattern pattern() const override { return pat; }
+  void recorded_values_at(double t, std::span<double> out) const override {
+    const double s = h > 0 ? std::clamp((t - t0) / h, 0.0, 1.0) : 0.0;
+    for (std::size_t j = 0; j < out.size(); ++j) {
+      double v = (*coefficients)(j, order);
+      for (int k = order - 1; k >= 0; --k) v = v * s + (*coefficients)(j, k);
+      out[j] = v;
+    }
+  }
+};
+
+}  // namespace
+
+struct Simulation::Impl {
+  CircuitModel model;
+  SimulationOptions options;
+  double period_s = 0.0;
+  std::unique_ptr<detail::GateBank> gates;
+  // Layout of z.
+  int n_x = 0, n_u = 0, n_r = 0, n_z = 0;
+  std::vector<int> ramp_inputs;  // input index of each slope entry
+  std::vector<int> recorded;     // signal indices
+  std::vector<int> diode_bits;   // device bits of the diodes (one event row each)
+  std::vector<int> inductor_states;
+  std::vector<std::pair<int, EnergyTerm>> energy_elements;  // element index, role
+  int output_recorded = -1;      // index into recorded
+  std::map<DevicePattern, PatternData> patterns;
+  PatternData uncached;
+  Eigen::VectorXd x0;
+
+  // Run state.
+  Observer* observer = nullptr;
+  double t = 0.0;
+  Eigen::VectorXd z;
+  DevicePattern pattern = 0;
+  const PatternData* current = nullptr;
+  detail::TaylorPiece piece;
+  Eigen::MatrixXd signal_coefficients, event_coefficients, energy_coefficients;
+  Eigen::VectorXd scratch;
+  CycleAccumulator cycle;
+  RunSummary summary;
+  double current_scale = 1e-3, voltage_scale = 1.0;
+  bool in_idle = false;
+  int last_switch_off = -1;  // element index of the switch that opened last
+  std::vector<double> output_averages;
+
+  Impl(const Circuit& circuit, SimulationOptions opts) : model(circuit), options(std::move(opts)) {
+    options.validate();
+    period_s = options.switching_period_s > 0 ? options.switching_period_s
+                                              : circuit.first_modulator_period_s();
+    if (!(period_s > 0))
+      throw InputError(ErrorKind::kInvalidOption, "", "the run has no switching period",
+                       "add a modulator or set the switching period of the run");
+    gates = std::make_unique<detail::GateBank>(circuit, model.devices(), 1e-12 * period_s);
+    model.set_caching(options.cache);
+    set_up_layout();
+    set_up_recorded();
+    set_up_energy();
+    x0 = model.initial_state();
+  }
+
+  void set_up_layout() {
+    n_x = static_cast<int>(model.state_count());
+    n_u = static_cast<int>(model.input_count());
+    for (std::size_t k = 0; k < model.input_elements().size(); ++k)
+      if (model.circuit().elements()[model.input_elements()[k]].waveform.can_ramp())
+        ramp_inputs.push_back(static_cast<int>(k));
+    n_r = static_cast<int>(ramp_inputs.size());
+    n_z = n_x + n_u + n_r;
+    for (std::size_t d = 0; d < model.devices().size(); ++d)
+      if (model.circuit().elements()[model.devices()[d]].kind == ElementKind::kDiode)
+        diode_bits.push_back(static_cast<int>(d));
+    for (int s = 0; s < n_x; ++s)
+      if (model.circuit().elements()[model.state_elements()[s]].kind == ElementKind::kInductor)
+        inductor_states.push_back(s);
+    piece.resize(n_z);
+    z = Eigen::VectorXd::Zero(n_z);
+    scratch = Eigen::VectorXd::Zero(n_z);
+  }
+
+  void set_up_recorded() {
+    std::vector<std::string> names = options.recorded_signals;
+    if (names.empty()) {
+      for (const auto& s : model.signals()) {
+        const bool node = s.element < 0;
+        const Element* e = node ? nullptr : &model.circuit().elements()[s.element];
+        const bool state = e && ((e->kind == ElementKind::kInductor &&
+                                  s.quantity == SignalQuantity::kCurrent) ||
+                                 (e->kind == ElementKind::kCapacitor &&
+                                  s.quantity == SignalQuantity::kVoltage));
+        if (node || state) names.push_back(s.name);
+      }
+    }
+    if (!options.output_signal.empty() &&
+        std::find(names.begin(), names.end(), options.output_signal) == names.end())
+      names.push_back(options.output_signal);
+    for (const auto& name : names) {
+      const int index = model.find_signal(name);
+      if (index < 0)
+        throw InputError(ErrorKind::kInvalidOption, "",
+                         "the circuit has no signal named '" + name + "'",
+                         "use '<node>.v', '<element>.v' or '<element>.i', for example '" +
+                             model.signals().front().name + "'");
+      if (name == options.output_signal) output_recorded = static_cast<int>(recorded.size());
+      recorded.push_back(index);
+    }
+    for (int index : recorded) summary.recorded.push_back(model.signals()[index]);
+  }
+
+  void set_up_energy() {
+    const auto& els = model.circuit().elements();
+    for (std::size_t k = 0; k < els.size(); ++k) {
+      const Element& e = els[k];
+      switch (e.kind) {
+        case ElementKind::kVoltageSource:
+        case ElementKind::kCurrentSource:
+          energy_elements.push_back({static_cast<int>(k), {EnergyRole::kSource, 0.0}});
+          break;
+        case ElementKind::kResistor:
+        case ElementKind::kSwitch:
+        case ElementKind::kDiode:
+          energy_elements.push_back({static_cast<int>(k), {EnergyRole::kDissipativeVi, 0.0}});
+          break;
+        case ElementKind::kInductor:
+        case ElementKind::kCapacitor:
+          if (e.series_resistance_ohm > 0)
+            energy_elements.push_back(
+                {static_cast<int>(k), {EnergyRole::kSeriesResistance, e.series_resistance_ohm}});
+          break;
+      }
+    }
+  }
+
+  // Row over z of signal `index` of a configuration.
+  Eigen::RowVectorXd signal_row(const ConfigurationModel& cfg, int index) const {
+    Eigen::RowVectorXd row = Eigen::RowVectorXd::Zero(n_z);
+    row.head(n_x) = cfg.C.row(index);
+    row.segment(n_x, n_u) = cfg.D.row(index);
+    return row;
+  }
+
+  void fill_pattern_data(const ConfigurationModel& cfg, PatternData& pd) const {
+    pd.model = &cfg;
+    if (!cfg.valid) return;
+    pd.M = Eigen::MatrixXd::Zero(n_z, n_z);
+    pd.M.topLeftCorner(n_x, n_x) = cfg.A;
+    pd.M.block(0, n_x, n_x, n_u) = cfg.B;
+    for (int r = 0; r < n_r; ++r) pd.M(n_x + ramp_inputs[r], n_x + n_u + r) = 1.0;
+    pd.recorded.resize(recorded.size(), n_z);
+    for (std::size_t j = 0; j < recorded.size(); ++j) pd.recorded.row(j) = signal_row(cfg, recorded[j]);
+    pd.events.resize(diode_bits.size(), n_z);
+    for (std::size_t d = 0; d < diode_bits.size(); ++d) {
+      const int el = model.devices()[diode_bits[d]];
+      const bool on = (cfg.pattern >> diode_bits[d]) & 1u;
+      if (on) {
+        pd.events.row(d) = signal_row(cfg, model.element_current_signal(el));
+      } else {
+        pd.events.row(d) = -signal_row(cfg, model.element_voltage_signal(el));
+        pd.events(d, n_x + n_u - 1) += model.circuit().elements()[el].forward_voltage_v;
+      }
+    }
+    pd.energy.resize(2 * energy_elements.size(), n_z);
+    for (std::size_t k = 0; k < energy_elements.size(); ++k) {
+      const int el = energy_elements[k].first;
+      pd.energy.row(2 * k) = signal_row(cfg, model.element_voltage_signal(el));
+      pd.energy.row(2 * k + 1) = signal_row(cfg, model.element_current_signal(el));
+    }
+    const double norm = pd.M.cwiseAbs().colwise().sum().maxCoeff();
+    pd.max_step_s = norm > 0 ? options.max_step_norm / norm : kInf;
+  }
+
+  const PatternData& data_for(DevicePattern p) {
+    const ConfigurationModel& cfg = model.configuration(p);
+    if (!options.cache) {
+      fill_pattern_data(cfg, uncached);
+      return uncached;
+    }
+    auto it = patterns.find(p);
+    if (it != patterns.end()) return it->second;
+    PatternData& pd = patterns[p];
+    fill_pattern_data(cfg, pd);
+    return pd;
+  }
+
+  // ---- consistency search ------------------------------------------------------------------
+
+  double tolerance_for(SignalQuantity q) const {
+    return options.device_condition_tolerance *
+           (q == SignalQuantity::kCurrent ? current_scale : voltage_scale);
+  }
+
+  bool fail(RunEnd end, std::string message) {
+    summary.end = end;
+    summary.message = std::move(message);
+    return false;
+  }
+
+  void log_event(EventKind kind, int element) {
+    ++summary.events;
+    ++cycle.events;
+    if (!observer) return;
+    EventRecord record;
+    record.time_s = t;
+    record.kind = kind;
+    record.element = element;
+    if (element >= 0) record.element_name = model.circuit().elements()[element].name;
+    record.pattern_after = pattern;
+    observer->on_event(record);
+  }
+
+  // A floating group whose cutset carries current needs a path: a diode of the group that the
+  // cutset current would forward-bias. Returns the device bit, -1 when there is none.
+  int freewheeling_diode(const FloatingGroup& group, double net_current_in) const {
+    std::set<std::string> inside(group.nodes.begin(), group.nodes.end());
+    for (int el : group.adjacent_open_devices) {
+      const Element& e = model.circuit().elements()[el];
+      if (e.kind != ElementKind::kDiode) continue;
+      const bool anode_inside = inside.count(e.node_a) > 0;
+      if ((net_current_in > 0) == anode_inside)
+        return static_cast<int>(std::find(model.devices().begin(), model.devices().end(), el) -
+                                model.devices().begin());
+    }
+    return -1;
+  }
+
+  std::string interrupted_current_message(const FloatingGroup& group, double current) const {
+    std::ostringstream out;
+    const auto& els = model.circuit().elements();
+    out << "switch '" << (last_switch_off >= 0 ? els[last_switch_off].name : std::string("?"))
+        << "' interrupts " << std::abs(current) << " A flowing in";
+    for (int el : group.cutset_inductors) out << " '" << els[el].name << "'";
+    for (int el : group.cutset_current_sources) out << " '" << els[el].name << "'";
+    out << " at t = " << t << " s with no freewheeling path; add a freewheeling diode or a snubber"
+        << " across node '" << group.nodes.front() << "'";
+    return out.str();
+  }
+
+  // Returns 1 when a group needed a device (pattern changed), 0 when all groups are fine,
+  // -1 on failure.
+  int fix_floating_groups(const PatternData& pd) {
+    const auto x = z.head(n_x);
+    const auto u = z.segment(n_x, n_u);
+    for (const FloatingGroup& group : pd.model->floating_groups) {
+      const double current = group.current_row_x.dot(x) + group.current_row_u.dot(u);
+      if (std::abs(current) <= tolerance_for(SignalQuantity::kCurrent)) continue;
+      const int bit = freewheeling_diode(group, current);
+      if (bit < 0) {
+        fail(RunEnd::kInterruptedCurrent, interrupted_current_message(group, current));
+        return -1;
+      }
+      pattern |= DevicePattern{1} << bit;
+      log_event(EventKind::kForcedTurnOn, model.devices()[bit]);
+      return 1;
+    }
+    return 0;
+  }
+
+  // Most violated diode condition at t+: g < -tol, or g within tol and decreasing.
+  int worst_violation(const PatternData& pd) {
+    scratch.noalias() = pd.M * z;
+    int worst = -1;
+    double worst_value = 0.0;
+    for (std::size_t d = 0; d < diode_bits.size(); ++d) {
+      const bool on = (pattern >> diode_bits[d]) & 1u;
+      const double tol = tolerance_for(on ? SignalQuantity::kCurrent : SignalQuantity::kVoltage);
+      const double g = pd.events.row(d).dot(z);
+      const double rate = pd.events.row(d).dot(scratch);
+      const bool violated = g < -tol || (g <= tol && rate < 0);
+      const double measure = std::min(g, 0.0) / tol - (g <= tol && rate < 0 ? 1.0 : 0.0);
+      if (violated && measure < worst_value) {
+        worst_value = measure;
+        worst = static_cast<int>(d);
+      }
+    }
+    return worst;
+  }
+
+  bool turn_off_loop_diode(const ConfigurationModel& cfg) {
+    for (int el : cfg.loop_elements) {
+      const Element& e = model.circuit().elements()[el];
+      if (e.kind != ElementKind::kDiode) continue;
+      const int bit = static_cast<int>(
+          std::find(model.devices().begin(), model.devices().end(), el) - model.devices().begin());
+      if ((pattern >> bit) & 1u) {
+        pattern &= ~(DevicePattern{1} << bit);
+        log_event(EventKind::kForcedTurnOff, el);
+        return true;
+      }
+    }
+    return false;
+  }
+
+  // Flip diodes one at a time until every device condition holds at t+. Detects cycling.
+  bool make_consistent() {
+    std::set<DevicePattern> visited;
+    for (int iter = 0; iter < options.max_consistency_iterations; ++iter) {
+      if (!visited.insert(pattern).second)
+        return fail(RunEnd::kNoConsistentConfiguration,
+                    "no consistent device configuration at t = " + std::to_string(t) +
+                        " s (the search cycled through " + model.describe(pattern) + ")");
+      const PatternData& pd = data_for(pattern);
+      if (!pd.model->valid) {
+        if (turn_off_loop_diode(*pd.model)) continue;
+        return fail(RunEnd::kZeroResistanceLoop,
+                    pd.model->problem + " at t = " + std::to_string(t) +
+                        " s; give one of them a non-zero on-resistance or series resistance");
+      }
+      const int groups = fix_floating_groups(pd);
+      if (groups < 0) return false;
+      if (groups > 0) continue;
+      const int d = worst_violation(pd);
+      if (d < 0) {
+        current = &pd;
+        return true;
+      }
+      const DevicePattern bit = DevicePattern{1} << diode_bits[d];
+      const bool was_on = pattern & bit;
+      pattern ^= bit;
+      log_event(was_on ? EventKind::kForcedTurnOff : EventKind::kForcedTurnOn,
+                model.devices()[diode_bits[d]]);
+      if (!was_on) in_idle = false;
+    }
+    return fail(RunEnd::kNoConsistentConfiguration,
+                "no consistent device configuration after " +
+                    std::to_string(options.max_consistency_iterations) + " flips at t = " +
+                    std::to_string(t) + " s");
+  }
+
+  // ---- pieces ------------------------------------------------------------------------------
+
+  // Earliest device event inside the current piece: (s, diode index) or (-1, -1).
+  std::pair<double, int> find_event(double s_tolerance) {
+    const int order = piece.order();
+    event_coefficients.leftCols(order + 1).noalias() =
+        current->events * piece.terms().leftCols(order + 1);
+    double best = kInf;
+    int which = -1;
+    for (std::size_t d = 0; d < diode_bits.size(); ++d) {
+      const bool on = (pattern >> diode_bits[d]) & 1u;
+      const double noise = tolerance_for(on ? SignalQuantity::kCurrent : SignalQuantity::kVoltage);
+      const double* a = event_coefficients.row(d).data();
+      // Row-major copy: Eigen stores column-major, so gather the coefficients of this row.
+      double coeffs[detail::TaylorPiece::kMaxOrder + 1];
+      for (int k = 0; k <= order; ++k) coeffs[k] = event_coefficients(d, k);
+      (void)a;
+      const double s = poly::first_downcrossing(coeffs, order, noise, s_tolerance);
+      if (s >= 0 && s < best) {
+        best = s;
+        which = static_cast<int>(d);
+      }
+    }
+    return {which >= 0 ? best : -1.0, which};
+  }
+
+  void accumulate_signals(double h) {
+    const int order = piece.order();
+    signal_coefficients.leftCols(order + 1).noalias() =
+        current->recorded * piece.terms().leftCols(order + 1);
+    double a[detail::TaylorPiece::kMaxOrder + 1];
+    for (std::size_t j = 0; j < recorded.size(); ++j) {
+      for (int k = 0; k <= order; ++k) a[k] = signal_coefficients(j, k);
+      cycle.integral[j] += h * poly::integral(a, order);
+      cycle.square_integral[j] += h * poly::product_integral(a, a, order);
+      double lo = std::min(a[0], poly::eval(a, order, 1.0));
+      double hi = std::max(a[0], poly::eval(a, order, 1.0));
+      const double d0 = poly::derivative(a, order, 0.0), d1 = poly::derivative(a, order, 1.0);
+      if ((d0 < 0) != (d1 < 0) && d0 != 0 && d1 != 0) {
+        const double s = poly::stationary_point(a, order, 0.0, 1.0, 1e-15);
+        const double v = poly::eval(a, order, s);
+        lo = std::min(lo, v);
+        hi = std::max(hi, v);
+      }
+      cycle.min[j] = std::min(cycle.min[j], lo);
+      cycle.max[j] = std::max(cycle.max[j], hi);
+    }
+  }
+
+  void accumulate_energy(double h) {
+    const int order = piece.order();
+    energy_coefficients.leftCols(order + 1).noalias() =
+        current->energy * piece.terms().leftCols(order + 1);
+    double v[detail::TaylorPiece::kMaxOrder + 1], i[detail::TaylorPiece::kMaxOrder + 1];
+    for (std::size_t k = 0; k < energy_elements.size(); ++k) {
+      for (int m = 0; m <= order; ++m) {
+        v[m] = energy_coefficients(2 * k, m);
+        i[m] = energy_coefficients(2 * k + 1, m);
+      }
+      const EnergyTerm& term = energy_elements[k].second;
+      switch (term.role) {
+        case EnergyRole::kSource: cycle.energy_in += h * poly::product_integral(v, i, order); break;
+        case EnergyRole::kDissipativeVi:
+          cycle.dissipated += h * poly::product_integral(v, i, order);
+          break;
+        case EnergyRole::kSeriesResistance:
+          cycle.dissipated += h * term.resistance_ohm * poly::product_integral(i, i, order);
+          break;
+      }
+    }
+  }
+
+  void track_inductor_peaks() {
+    const int order = piece.order();
+    double a[detail::TaylorPiece::kMaxOrder + 1];
+    for (std::size_t k = 0; k < inductor_states.size(); ++k) {
+      for (int m = 0; m <= order; ++m) a[m] = piece.terms()(inductor_states[k], m);
+      double peak = std::max(std::abs(a[0]), std::abs(poly::eval(a, order, 1.0)));
+      const double d0 = poly::derivative(a, order, 0.0), d1 = poly::derivative(a, order, 1.0);
+      if ((d0 < 0) != (d1 < 0) && d0 != 0 && d1 != 0)
+        peak = std::max(peak, std::abs(poly::eval(
+                                  a, order, poly::stationary_point(a, order, 0.0, 1.0, 1e-15))));
+      double& best = summary.startup.peak_inductor_current_a[k];
+      best = std::max(best, peak);
+    }
+  }
+
+  void finish_piece(double h) {
+    accumulate_signals(h);
+    if (options.energy_accounting) accumulate_energy(h);
+    track_inductor_peaks();
+    if (!cycle.intervals.empty() && cycle.intervals.back().pattern == pattern)
+      cycle.intervals.back().fraction += h / period_s;
+    else
+      cycle.intervals.push_back({pattern, h / period_s});
+    if (in_idle) cycle.idle_time += h;
+    if (observer) {
+      PolynomialPiece view;
+      view.t0 = t;
+      view.h = h;
+      view.pat = pattern;
+      view.order = piece.order();
+      view.coefficients = &signal_coefficients;
+      observer->on_piece(view);
+    }
+  }
+
+  // Handles the device event of diode index d found at the end of the current piece.
+  bool state_event(int d) {
+    const DevicePattern bit = DevicePattern{1} << diode_bits[d];
+    const bool was_on = pattern & bit;
+    pattern ^= bit;
+    const int el = model.devices()[diode_bits[d]];
+    log_event(was_on ? EventKind::kDeviceTurnOff : EventKind::kDeviceTurnOn, el);
+    if (was_on) {
+      cycle.natural_turn_off = true;
+      in_idle = true;
+    } else {
+      in_idle = false;
+    }
+    return make_consistent();
+  }
+
+  // Advance from t to t_target, handling every device event in between.
+  bool advance_until(double t_target) {
+    const double time_resolution = options.event_time_tolerance * period_s;
+    const double nominal = period_s / options.substeps_per_period;
+    while (t_target - t > time_resolution) {
+      if (cycle.events > options.max_events_per_period)
+        return fail(RunEnd::kChattering,
+                    "more than " + std::to_string(options.max_events_per_period) +
+                        " events in one period near t = " + std::to_string(t) +
+                        " s; the devices chatter: check the circuit or raise the event limit");
+      double h = std::min({t_target - t, nominal, current->max_step_s});
+      if (t_target - t - h < time_resolution) h = t_target - t;
+      if (!piece.expand(current->M, z, h))
+        return fail(RunEnd::kNoConsistentConfiguration, "series expansion did not converge");
+      const auto [s_event, which] = find_event(time_resolution / h);
+      const bool last = which < 0 && h == t_target - t;
+      if (which >= 0) piece.truncate(std::max(s_event, 0.0));
+      const double h_piece = piece.duration_s();
+      finish_piece(h_piece);
+      piece.end_state(z);
+      t = last ? t_target : t + h_piece;
+      if (which >= 0 && !state_event(which)) return false;
+    }
+    t = t_target;
+    return true;
+  }
+
+  // Gate edges and source breakpoints at the current time.
+  bool apply_schedule() {
+    const DevicePattern switches = gates->switch_pattern(t);
+    Eigen::VectorXd u(n_u), du(n_u);
+    model.inputs_at(t, u);
+    model.input_slopes_at(t, du);
+    const bool inputs_changed = (u - z.segment(n_x, n_u)).cwiseAbs().maxCoeff() > 0 ||
+                                [&] {
+                                  for (int r = 0; r < n_r; ++r)
+                                    if (du[ramp_inputs[r]] != z[n_x + n_u + r]) return true;
+                                  return false;
+                                }();
+    const DevicePattern changed = (pattern & gates->switch_mask()) ^ switches;
+    if (!changed && !inputs_changed) return true;
+    z.segment(n_x, n_u) = u;
+    for (int r = 0; r < n_r; ++r) z[n_x + n_u + r] = du[ramp_inputs[r]];
+    if (changed) {
+      pattern = (pattern & ~gates->switch_mask()) | switches;
+      in_idle = false;
+      for (std::size_t bit = 0; bit < model.devices().size(); ++bit) {
+        if (!((changed >> bit) & 1u)) continue;
+        const int el = model.devices()[bit];
+        if (!((switches >> bit) & 1u)) last_switch_off = el;
+        log_event(EventKind::kGateEdge, el);
+      }
+    } else {
+      log_event(EventKind::kSourceBreakpoint, -1);
+    }
+    return make_consistent();
+  }
+
+  double next_breakpoint(double after) const {
+    double best = kInf;
+    const double tp = after + 1e-12 * period_s;
+    for (int el : model.input_elements())
+      best = std::min(best, model.circuit().elements()[el].waveform.next_breakpoint_after(tp));
+    return best;
+  }
+
+  // ---- cycles ------------------------------------------------------------------------------
+
+  double stored_energy() const {
+    double w = 0.0;
+    for (int s = 0; s < n_x; ++s) {
+      const Element& e = model.circuit().elements()[model.state_elements()[s]];
+      w += 0.5 * e.value * z[s] * z[s];
+    }
+    return w;
+  }
+
+  void update_scales() {
+    for (int s = 0; s < n_x; ++s) {
+      const bool inductor =
+          model.circuit().elements()[model.state_elements()[s]].kind == ElementKind::kInductor;
+      double& scale = inductor ? current_scale : voltage_scale;
+      scale = std::max(scale, std::abs(z[s]));
+    }
+  }
+
+  ConductionMode mode_of_cycle() const {
+    if (diode_bits.empty()) return ConductionMode::kNone;
+    if (cycle.natural_turn_off || cycle.idle_time > 0) {
+      return cycle.idle_time > options.boundary_tolerance * period_s ? ConductionMode::kDcm
+                                                                      : ConductionMode::kBoundary;
+    }
+    return ConductionMode::kCcm;
+  }
+
+  CycleMetrics finish_cycle(long index, double start, const Eigen::VectorXd& x_start) {
+    CycleMetrics m;
+    m.index = index;
+    m.start_time_s = start;
+    m.mode = mode_of_cycle();
+    m.intervals = cycle.intervals;
+    m.events = cycle.events;
+    m.signals.resize(recorded.size());
+    for (std::size_t j = 0; j < recorded.size(); ++j) {
+      m.signals[j].average = cycle.integral[j] / period_s;
+      m.signals[j].rms = std::sqrt(std::max(cycle.square_integral[j] / period_s, 0.0));
+      m.signals[j].min = cycle.min[j];
+      m.signals[j].max = cycle.max[j];
+    }
+    m.energy_in_j = cycle.energy_in;
+    m.dissipated_j = cycle.dissipated;
+    m.stored_energy_change_j = stored_energy() - cycle.stored_start;
+    double change = 0.0;
+    for (int s = 0; s < n_x; ++s) {
+      const bool inductor =
+          model.circuit().elements()[model.state_elements()[s]].kind == ElementKind::kInductor;
+      change = std::max(change, std::abs(z[s] - x_start[s]) /
+                                    (inductor ? current_scale : voltage_scale));
+    }
+    m.state_change = change;
+    return m;
+  }
+
+  void start(Observer* obs) {
+    observer = obs;
+    summary = RunSummary{};
+    for (int index : recorded) summary.recorded.push_back(model.signals()[index]);
+    for (int s : inductor_states)
+      summary.startup.inductors.push_back(model.circuit().elements()[model.state_elements()[s]].name);
+    summary.startup.peak_inductor_current_a.assign(inductor_states.size(), 0.0);
+    for (int s = 0; s < n_x; ++s) {
+      const int el = model.state_elements()[s];
+      const bool inductor = model.circuit().elements()[el].kind == ElementKind::kInductor;
+      summary.state_names.push_back(
+          model.signals()[inductor ? model.element_current_signal(el)
+                                   : model.element_voltage_signal(el)]
+              .name);
+    }
+    t = 0.0;
+    z.setZero();
+    z.head(n_x) = x0;
+    model.inputs_at(0.0, z.segment(n_x, n_u));
+    Eigen::VectorXd du(n_u);
+    model.input_slopes_at(0.0, du);
+    for (int r = 0; r < n_r; ++r) z[n_x + n_u + r] = du[ramp_inputs[r]];
+    for (int k = 0; k < n_u - 1; ++k) {
+      const Element& e = model.circuit().elements()[model.input_elements()[k]];
+      double& scale = e.kind == ElementKind::kVoltageSource ? voltage_scale : current_scale;
+      for (const auto& p : e.waveform.points()) scale = std::max(scale, std::abs(p.second));
+    }
+    current_scale = std::max(current_scale, 1e-3 * voltage_scale);
+    pattern = gates->switch_pattern(0.0);
+    signal_coefficients.resize(recorded.size(), detail::TaylorPiece::kMaxOrder + 1);
+    event_coefficients.resize(diode_bits.size(), detail::TaylorPiece::kMaxOrder + 1);
+    energy_coefficients.resize(2 * energy_elements.size(), detail::TaylorPiece::kMaxOrder + 1);
+    output_averages.clear();
+    in_idle = false;
+    cycle.reset(recorded.size());
+  }
+
+  bool run_cycle(long k) {
+    const double start = k * period_s, end = (k + 1) * period_s;
+    cycle.reset(recorded.size());
+    cycle.stored_start = stored_energy();
+    const Eigen::VectorXd x_start = z.head(n_x);
+    while (end - t > options.event_time_tolerance * period_s) {
+      const double t_next = std::min({gates->next_edge_after(t), next_breakpoint(t), end});
+      if (!advance_until(t_next)) return false;
+      if (!apply_schedule()) return false;
+    }
+    update_scales();
+    CycleMetrics m = finish_cycle(k, start, x_start);
+    if (output_recorded >= 0) {
+      output_averages.push_back(m.signals[output_recorded].average);
+      summary.startup.output_peak =
+          k == 0 ? m.signals[output_recorded].max
+                 : std::max(summary.startup.output_peak, m.signals[output_recorded].max);
+    }
+    if (observer) observer->on_cycle(m);
+    summary.last_cycle = std::move(m);
+    summary.cycles = k + 1;
+    return true;
+  }
+
+  void finish_startup() {
+    if (output_recorded < 0 || output_averages.empty()) return;
+    const double final_value = output_averages.back();
+    const double scale = std::abs(final_value);
+    if (scale == 0) return;
+    double extreme = summary.startup.output_peak;
+    if (final_value < 0) {
+      extreme = kInf;
+      // For a negative output, overshoot is measured toward more negative values: use min.
+      extreme = std::min(extreme, summary.last_cycle.signals[output_recorded].min);
+    }
+    summary.startup.overshoot =
+        std::max(0.0, (final_value > 0 ? extreme - final_value : final_value - extreme) / scale);
+    long settled = 0;
+    for (std::size_t k = 0; k < output_averages.size(); ++k)
+      if (std::abs(output_averages[k] - final_value) > options.settling_band * scale)
+        settled = static_cast<long>(k) + 1;
+    summary.startup.settling_cycle = settled < static_cast<long>(output_averages.size()) ? settled : -1;
+  }
+
+  RunSummary run(Observer* obs) {
+    const auto wall_start = std::chrono::steady_clock::now();
+    start(obs);
+    if (observer) {
+      RunInfo info;
+      info.recorded = summary.recorded;
+      info.switching_period_s = period_s;
+      info.end_time_s = options.periods * period_s;
+      info.periods = options.periods;
+      observer->on_start(info);
+    }
+    bool ok = make_consistent();
+    int quiet_periods = 0;
+    for (long k = 0; ok && k < options.periods; ++k) {
+      ok = run_cycle(k);
+      if (!ok) break;
+      quiet_periods = summary.last_cycle.state_change < options.steady_state_tolerance
+                          ? quiet_periods + 1
+                          : 0;
+      if (quiet_periods >= options.steady_state_periods && summary.startup.steady_state_cycle < 0)
+        summary.startup.steady_state_cycle = k;
+      if (options.stop_at_steady_state && summary.startup.steady_state_cycle >= 0) {
+        summary.end = RunEnd::kSteadyState;
+        summary.message = "steady state after " + std::to_string(k + 1) + " periods";
+        break;
+      }
+    }
+    if (ok && summary.end == RunEnd::kCompleted)
+      summary.message = "completed " + std::to_string(summary.cycles) + " periods";
+    finish_startup();
+    summary.end_time_s = t;
+    summary.final_state = z.head(n_x);
+    summary.configurations_built = model.configurations_built();
+    summary.cache_hits = model.cache_hits();
+    summary.wall_time_s =
+        std::chrono::duration<double>(std::chrono::steady_clock::now() - wall_start).count();
+    if (observer) observer->on_finish(summary);
+    return summary;
+  }
+};
+
+Simulation::Simulation(const Circuit& circuit, SimulationOptions options)
+    : impl_(std::make_unique<Impl>(circuit, std::move(options))) {}
+Simulation::~Simulation() = default;
+Simulation::Simulation(Simulation&&) noexcept = default;
+Simulation& Simulation::operator=(Simulation&&) noexcept = default;
+
+RunSummary Simulation::run(Observer* observer) { return impl_->run(observer); }
+const CircuitModel& Simulation::model() const { return impl_->model; }
+const SimulationOptions& Simulation::options() const { return impl_->options; }
+std::string Simulation::describe(DevicePattern pattern) const {
+  return impl_->model.describe(pattern);
+}
+
+void Simulation::set_initial_state(const Eigen::VectorXd& x0) {
+  if (x0.size() != static_cast<Eigen::Index>(impl_->model.state_count()))
+    throw InputError(ErrorKind::kInvalidOption, "",
+                     "initial state has " + std::to_string(x0.size()) + " entries",
+                     "give one value per state (" + std::to_string(impl_->model.state_count()) +
+                         ")");
+  impl_->x0 = x0;
+}
+
+}  // namespace pulsewise
