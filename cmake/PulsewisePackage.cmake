@@ -9,11 +9,22 @@ set(PULSEWISE_INSTALL_CMAKEDIR "${CMAKE_INSTALL_LIBDIR}/cmake/pulsewise"
 
 # Recorded in the package config so that it looks only for what the installed targets need.
 set(PULSEWISE_PACKAGE_COMPONENTS core)
-set(PULSEWISE_PACKAGE_HAS_CIRCUIT_FILE OFF)
+set(PULSEWISE_PACKAGE_NEEDS_TOMLPP OFF)
 set(PULSEWISE_PACKAGE_HAS_HDF5 OFF)
 if(TARGET pulsewise::circuit_file)
   list(APPEND PULSEWISE_PACKAGE_COMPONENTS circuit_file)
-  set(PULSEWISE_PACKAGE_HAS_CIRCUIT_FILE ON)
+  # The loader may use toml++ header-only and privately; only a link to the toml++ target makes
+  # consumers need the toml++ package.
+  get_target_property(_pulsewise_cf pulsewise::circuit_file ALIASED_TARGET)
+  if(NOT _pulsewise_cf)
+    set(_pulsewise_cf pulsewise::circuit_file)
+  endif()
+  get_target_property(_pulsewise_cf_links ${_pulsewise_cf} LINK_LIBRARIES)
+  if(_pulsewise_cf_links MATCHES "tomlplusplus::")
+    set(PULSEWISE_PACKAGE_NEEDS_TOMLPP ON)
+  endif()
+  unset(_pulsewise_cf_links)
+  unset(_pulsewise_cf)
 endif()
 if(TARGET pulsewise::hdf5)
   list(APPEND PULSEWISE_PACKAGE_COMPONENTS hdf5)

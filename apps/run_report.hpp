@@ -1,0 +1,33 @@
+// What `pulsewise run` reports about one simulation, as text for a person (print_run_report) or
+// as JSON for scripts (run_report_json, schema in docs/summary-json.md).
+#pragma once
+
+#include <nlohmann/json.hpp>
+#include <string>
+#include <vector>
+
+#include "pulsewise/simulation.hpp"
+
+namespace pulsewise::app {
+
+struct RunReport {
+  std::string input_path;  // the circuit file
+  std::string circuit_name;
+  std::string trace_path;  // empty when no trace file was written
+  double switching_period_s = 0.0;
+  std::string output_signal;                   // the signal start-up figures refer to, may be empty
+  std::vector<std::string> interval_patterns;  // "S1 on, D1 off" per last-cycle interval
+  // Efficiency: power into the named load elements over power from the sources, last period;
+  // negative when it cannot be computed (no load named, or no energy in).
+  double efficiency = -1.0;
+  std::vector<std::pair<std::string, double>> losses_w;  // element, average loss, W
+  RunSummary summary;
+};
+
+// The text an engineer reads at a glance.
+void print_run_report(const RunReport& report);
+
+// The same content as JSON (docs/summary-json.md).
+nlohmann::json run_report_json(const RunReport& report);
+
+}  // namespace pulsewise::app
