@@ -60,7 +60,7 @@ void SimulationOptions::validate() const {
           "must be finite and not negative", "give the period in seconds, or 0 for the modulator's");
   require(periods > 0, "periods", "must be positive", "ask for at least one period");
   require(substeps_per_period >= 1 && substeps_per_period <= 100000, "substeps_per_period",
-          "must be between 1 and 100000", "use the default 8 unless checking invariance");
+          "must be between 1 and 100000", "use the default 1 unless checking invariance");
   require(max_step_norm > 0 && max_step_norm <= 2, "max_step_norm", "must be in (0, 2]",
           "keep the default 0.5");
   require(event_time_tolerance > 0 && event_time_tolerance < 1e-3, "event_time_tolerance",

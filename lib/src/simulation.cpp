@@ -96,6 +96,8 @@ struct Simulation::Impl {
   bool in_idle = false;
   int last_switch_off = -1;  // element index of the switch that opened last
   std::vector<double> output_averages;
+  std::vector<DevicePattern> visited;  // consistency search, reused to avoid allocation
+  Eigen::VectorXd u_new, du_new;       // apply_schedule scratch
 
   Impl(const Circuit& circuit, SimulationOptions opts) : model(circuit), options(std::move(opts)) {
     options.validate();
@@ -127,6 +129,9 @@ struct Simulation::Impl {
       if (model.circuit().elements()[model.state_elements()[s]].kind == ElementKind::kInductor)
         inductor_states.push_back(s);
     piece.resize(n_z);
+    u_new = Eigen::VectorXd::Zero(n_u);
+    du_new = Eigen::VectorXd::Zero(n_u);
+    visited.reserve(64);
     z = Eigen::VectorXd::Zero(n_z);
     scratch = Eigen::VectorXd::Zero(n_z);
   }
@@ -345,12 +350,13 @@ struct Simulation::Impl {
 
   // Flip diodes one at a time until every device condition holds at t+. Detects cycling.
   bool make_consistent() {
-    std::set<DevicePattern> visited;
+    visited.clear();
     for (int iter = 0; iter < options.max_consistency_iterations; ++iter) {
-      if (!visited.insert(pattern).second)
+      if (std::find(visited.begin(), visited.end(), pattern) != visited.end())
         return fail(RunEnd::kNoConsistentConfiguration,
                     "no consistent device configuration at t = " + std::to_string(t) +
                         " s (the search cycled through " + model.describe(pattern) + ")");
+      visited.push_back(pattern);
       const PatternData& pd = data_for(pattern);
       if (!pd.model->valid) {
         if (turn_off_loop_diode(*pd.model)) continue;
@@ -384,18 +390,14 @@ struct Simulation::Impl {
   // Earliest device event inside the current piece: (s, diode index) or (-1, -1).
   std::pair<double, int> find_event(double s_tolerance) {
     const int order = piece.order();
-    event_coefficients.leftCols(order + 1).noalias() =
-        current->events * piece.terms().leftCols(order + 1);
+    piece.project(current->events, event_coefficients);
     double best = kInf;
     int which = -1;
     for (std::size_t d = 0; d < diode_bits.size(); ++d) {
       const bool on = (pattern >> diode_bits[d]) & 1u;
       const double noise = tolerance_for(on ? SignalQuantity::kCurrent : SignalQuantity::kVoltage);
-      const double* a = event_coefficients.row(d).data();
-      // Row-major copy: Eigen stores column-major, so gather the coefficients of this row.
       double coeffs[detail::TaylorPiece::kMaxOrder + 1];
       for (int k = 0; k <= order; ++k) coeffs[k] = event_coefficients(d, k);
-      (void)a;
       const double s = poly::first_downcrossing(coeffs, order, noise, s_tolerance);
       if (s >= 0 && s < best) {
         best = s;
@@ -407,8 +409,7 @@ struct Simulation::Impl {
 
   void accumulate_signals(double h) {
     const int order = piece.order();
-    signal_coefficients.leftCols(order + 1).noalias() =
-        current->recorded * piece.terms().leftCols(order + 1);
+    piece.project(current->recorded, signal_coefficients);
     double a[detail::TaylorPiece::kMaxOrder + 1];
     for (std::size_t j = 0; j < recorded.size(); ++j) {
       for (int k = 0; k <= order; ++k) a[k] = signal_coefficients(j, k);
@@ -430,8 +431,7 @@ struct Simulation::Impl {
 
   void accumulate_energy(double h) {
     const int order = piece.order();
-    energy_coefficients.leftCols(order + 1).noalias() =
-        current->energy * piece.terms().leftCols(order + 1);
+    piece.project(current->energy, energy_coefficients);
     double v[detail::TaylorPiece::kMaxOrder + 1], i[detail::TaylorPiece::kMaxOrder + 1];
     for (std::size_t k = 0; k < energy_elements.size(); ++k) {
       for (int m = 0; m <= order; ++m) {
@@ -532,7 +532,8 @@ struct Simulation::Impl {
   // Gate edges and source breakpoints at the current time.
   bool apply_schedule() {
     const DevicePattern switches = gates->switch_pattern(t);
-    Eigen::VectorXd u(n_u), du(n_u);
+    Eigen::VectorXd& u = u_new;
+    Eigen::VectorXd& du = du_new;
     model.inputs_at(t, u);
     model.input_slopes_at(t, du);
     const bool inputs_changed = (u - z.segment(n_x, n_u)).cwiseAbs().maxCoeff() > 0 ||

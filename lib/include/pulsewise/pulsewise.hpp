@@ -6,6 +6,7 @@
 #include "pulsewise/error.hpp"
 #include "pulsewise/modulator.hpp"
 #include "pulsewise/observer.hpp"
+#include "pulsewise/recording.hpp"
 #include "pulsewise/simulation.hpp"
 #include "pulsewise/topology.hpp"
 #include "pulsewise/version.hpp"

@@ -27,7 +27,7 @@ struct SimulationOptions {
   // Sub-steps per switching period on which event functions are bracketed, >= 1. The step is
   // further shortened in configurations whose fastest mode would turn by more than
   // max_step_norm radians within it.
-  int substeps_per_period = 8;
+  int substeps_per_period = 1;
   // Bound on ||M h||_1 of a sub-step (M the augmented system matrix); keeps the Taylor expansion
   // used inside a sub-step exact to machine precision and at most one extremum per sub-step.
   double max_step_norm = 0.5;

@@ -21,18 +21,26 @@ inline double derivative(const double* a, int order, double s) {
 }
 
 // Integral over [0, 1].
-inline double integral(const double* a, int order) {
-  double v = 0.0;
-  for (int k = 0; k <= order; ++k) v += a[k] / (k + 1);
-  return v;
-}
+inline double integral(const double* a, int order);
+
+inline constexpr int kMaxTerms = 41;
+
+// 1 / (n + 1) for n = 0 .. 2 * kMaxTerms, so that integrals need no divisions.
+struct ReciprocalTable {
+  double value[2 * kMaxTerms + 1];
+  constexpr ReciprocalTable() : value() {
+    for (int n = 0; n <= 2 * kMaxTerms; ++n) value[n] = 1.0 / (n + 1);
+  }
+};
+inline constexpr ReciprocalTable kReciprocal{};
 
 // Integral of p(s) q(s) over [0, 1]: sum a_k b_l / (k + l + 1).
 inline double product_integral(const double* a, const double* b, int order) {
   double v = 0.0;
   for (int k = 0; k <= order; ++k) {
+    const double* w = kReciprocal.value + k;
     double inner = 0.0;
-    for (int l = 0; l <= order; ++l) inner += b[l] / (k + l + 1);
+    for (int l = 0; l <= order; ++l) inner += b[l] * w[l];
     v += a[k] * inner;
   }
   return v;
@@ -104,6 +112,12 @@ inline double first_downcrossing(const double* a, int order, double noise, doubl
     p_lo = p_hi;
   }
   return -1.0;
+}
+
+inline double integral(const double* a, int order) {
+  double v = 0.0;
+  for (int k = 0; k <= order; ++k) v += a[k] * kReciprocal.value[k];
+  return v;
 }
 
 }  // namespace pulsewise::detail::poly

@@ -33,6 +33,10 @@ class TaylorPiece {
   double duration_s() const { return h_; }
   // Column k holds z_k; the state at s is sum_k z_k s^k.
   const Eigen::MatrixXd& terms() const { return terms_; }
+  // out(r, k) = rows.row(r) . z_k for k = 0..order(): the polynomial coefficients of linear
+  // functionals of the state. Plain loops: the matrices are tiny and a general product's
+  // packing overhead dominates at these sizes.
+  void project(const Eigen::MatrixXd& rows, Eigen::MatrixXd& out) const;
   void state_at(double s, Eigen::Ref<Eigen::VectorXd> z) const;
   void end_state(Eigen::Ref<Eigen::VectorXd> z) const;
 
