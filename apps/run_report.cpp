@@ -177,7 +177,7 @@ nlohmann::json run_report_json(const RunReport& r) {
           {"program_version", kVersion},
           {"input", r.input_path},
           {"circuit", r.circuit_name},
-          {"trace_file", r.trace_path.empty() ? nlohmann::json(nullptr) : r.trace_path},
+          {"trace_file", r.trace_path.empty() ? nlohmann::json(nullptr) : nlohmann::json(r.trace_path)},
           {"ok", s.ok()},
           {"end", to_string(s.end)},
           {"message", s.message},
