@@ -31,8 +31,14 @@ TEST(SiValue, ReadsEveryAcceptedPrefixWithItsBipmFactor) {
   EXPECT_EQ(parsed("3 pF", Unit::kFarad), 3e-12);
   EXPECT_EQ(parsed("3 nF", Unit::kFarad), 3e-9);
   EXPECT_EQ(parsed("3 uF", Unit::kFarad), 3e-6);
-  EXPECT_EQ(parsed("3 \xC2\xB5" "F", Unit::kFarad), 3e-6);  // micro sign U+00B5
-  EXPECT_EQ(parsed("3 \xCE\xBC" "F", Unit::kFarad), 3e-6);  // Greek mu U+03BC
+  EXPECT_EQ(parsed("3 \xC2\xB5"
+                   "F",
+                   Unit::kFarad),
+            3e-6);  // micro sign U+00B5
+  EXPECT_EQ(parsed("3 \xCE\xBC"
+                   "F",
+                   Unit::kFarad),
+            3e-6);  // Greek mu U+03BC
   EXPECT_EQ(parsed("3 mF", Unit::kFarad), 3e-3);
   EXPECT_EQ(parsed("3 kHz", Unit::kHertz), 3e3);
   EXPECT_EQ(parsed("3 MHz", Unit::kHertz), 3e6);
@@ -46,10 +52,13 @@ TEST(SiValue, ReadsTheSpellingsOfTheCircuitFileFormat) {
   EXPECT_EQ(parsed("100 kHz", Unit::kHertz), 100e3);
   EXPECT_EQ(parsed("22 mOhm", Unit::kOhm), 22e-3);
   EXPECT_EQ(parsed("22 mohm", Unit::kOhm), 22e-3);
-  EXPECT_EQ(parsed("22 m\xCE\xA9", Unit::kOhm), 22e-3);       // Greek capital omega
-  EXPECT_EQ(parsed("22 m\xE2\x84\xA6", Unit::kOhm), 22e-3);   // ohm sign U+2126
+  EXPECT_EQ(parsed("22 m\xCE\xA9", Unit::kOhm), 22e-3);      // Greek capital omega
+  EXPECT_EQ(parsed("22 m\xE2\x84\xA6", Unit::kOhm), 22e-3);  // ohm sign U+2126
   EXPECT_EQ(parsed("1.5", Unit::kNone), 1.5);
-  EXPECT_EQ(parsed("2.2 \xC2\xB5" "F", Unit::kFarad), 2.2e-6);
+  EXPECT_EQ(parsed("2.2 \xC2\xB5"
+                   "F",
+                   Unit::kFarad),
+            2.2e-6);
   EXPECT_EQ(parsed("0.3", Unit::kNone), 0.3);
   EXPECT_EQ(parsed("12 V", Unit::kVolt), 12.0);
   EXPECT_EQ(parsed("-5 V", Unit::kVolt), -5.0);
@@ -110,8 +119,8 @@ TEST(SiValue, RejectsWrongCaseOfAUnitSymbol) {
 }
 
 TEST(SiValue, RejectsGarbageAndTrailingJunk) {
-  for (const char* text : {"", "   ", "abc", "uH", "10 uHx", "10 u H", "1.2.3", "4,7u", "1e",
-                           "1e+", "--1", "10 uH extra", "0x10", "1 2"}) {
+  for (const char* text : {"", "   ", "abc", "uH", "10 uHx", "10 u H", "1.2.3", "4,7u", "1e", "1e+",
+                           "--1", "10 uH extra", "0x10", "1 2"}) {
     EXPECT_EQ(failed(text, Unit::kHenry).kind, ErrorKind::kInvalidValue) << text;
   }
 }

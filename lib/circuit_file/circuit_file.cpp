@@ -34,8 +34,7 @@ toml::table parse_toml(std::string_view text, const std::string& file) {
   try {
     return toml::parse(text, file);
   } catch (const toml::parse_error& e) {
-    throw InputError(ErrorKind::kFileSyntax, "",
-                     "not valid TOML: " + std::string(e.description()),
+    throw InputError(ErrorKind::kFileSyntax, "", "not valid TOML: " + std::string(e.description()),
                      "correct the TOML syntax here; values with units are strings and need "
                      "quotes, e.g. inductance = \"10 uH\"",
                      detail::location_of(e.source(), file));
@@ -60,8 +59,8 @@ const toml::table* single_table(const TableReader& root, const std::string& key)
   const toml::node* node = root.find(key);
   if (!node) return nullptr;
   if (!node->is_table()) {
-    root.fail(ErrorKind::kInvalidValue, node,
-              "'" + key + "' must be a table", "write a [" + key + "] header with its keys below");
+    root.fail(ErrorKind::kInvalidValue, node, "'" + key + "' must be a table",
+              "write a [" + key + "] header with its keys below");
   }
   return node->as_table();
 }
@@ -132,10 +131,10 @@ void check_unique(const std::vector<NamedPlace>& names, std::string_view what) {
   for (const auto& n : names) {
     auto [it, fresh] = seen.emplace(n.name, n.where);
     if (fresh) continue;
-    throw InputError(ErrorKind::kDuplicateName, n.name,
-                     std::string(what) + " name '" + n.name + "' is already used at " +
-                         where_text(it->second),
-                     "give each " + std::string(what) + " its own name", n.where);
+    throw InputError(
+        ErrorKind::kDuplicateName, n.name,
+        std::string(what) + " name '" + n.name + "' is already used at " + where_text(it->second),
+        "give each " + std::string(what) + " its own name", n.where);
   }
 }
 
@@ -145,23 +144,14 @@ std::vector<NamedPlace> element_places(const Circuit& circuit) {
   return out;
 }
 
-std::set<std::string> node_names(const Circuit& circuit) {
-  std::set<std::string> nodes;
-  for (const Element& e : circuit.elements()) {
-    nodes.insert(e.node_a);
-    nodes.insert(e.node_b);
-  }
-  return nodes;
-}
-
 // "out.v" would be ambiguous if an element were also called "out".
 void check_elements_are_not_nodes(const Circuit& circuit) {
-  const std::set<std::string> nodes = node_names(circuit);
+  const std::set<std::string> nodes = detail::node_names(circuit);
   for (const Element& e : circuit.elements()) {
     if (!nodes.count(e.name)) continue;
     throw InputError(ErrorKind::kDuplicateName, e.name,
-                     "'" + e.name + "' names both an element and a node, so the signal '" +
-                         e.name + ".v' would be ambiguous",
+                     "'" + e.name + "' names both an element and a node, so the signal '" + e.name +
+                         ".v' would be ambiguous",
                      "rename the element or the node", e.where);
   }
 }
@@ -180,39 +170,15 @@ void check_gates(const Circuit& circuit, const std::vector<NamedPlace>& gates) {
       fix = "add a [[pwm]], [[complementary_pwm]] or [[schedule]] named '" + e.gate + "'";
     } else {
       fix = detail::did_you_mean(e.gate, names);
-      if (fix.empty()) fix = "name a gate a modulator provides, or add a [[pwm]] named '" +
-                             e.gate + "'";
+      if (fix.empty())
+        fix = "name a gate a modulator provides, or add a [[pwm]] named '" + e.gate + "'";
     }
-    throw InputError(ErrorKind::kUnknownGate, e.name, "gate '" + e.gate + "' is not provided by "
-                     "any [[pwm]], [[complementary_pwm]] or [[schedule]]", fix, e.where);
+    throw InputError(ErrorKind::kUnknownGate, e.name,
+                     "gate '" + e.gate +
+                         "' is not provided by "
+                         "any [[pwm]], [[complementary_pwm]] or [[schedule]]",
+                     fix, e.where);
   }
-}
-
-// A signal is "<node>.v", "<element>.v" or "<element>.i".
-void check_signal(const Circuit& circuit, const std::string& signal, const std::string& key,
-                  const SourceLocation& where) {
-  const auto dot = signal.rfind('.');
-  const std::string base = dot == std::string::npos ? signal : signal.substr(0, dot);
-  const std::string quantity = dot == std::string::npos ? "" : signal.substr(dot + 1);
-  const auto fail = [&](std::string problem, std::string fix) {
-    throw InputError(ErrorKind::kInvalidOption, "", key + ": signal '" + signal + "' " + problem,
-                     std::move(fix), where);
-  };
-  if (quantity != "v" && quantity != "i") {
-    fail("does not end in .v (voltage) or .i (current)", "write e.g. \"out.v\" or \"L1.i\"");
-  }
-  const bool is_element = circuit.find_element(base) >= 0;
-  const std::set<std::string> nodes = node_names(circuit);
-  if (quantity == "i" && !is_element && nodes.count(base)) {
-    fail("asks for the current of a node", "ask for an element's current, e.g. \"L1.i\"");
-  }
-  if (is_element || nodes.count(base)) return;
-  std::vector<std::string> candidates(nodes.begin(), nodes.end());
-  for (const Element& e : circuit.elements()) candidates.push_back(e.name);
-  std::string fix = detail::did_you_mean(base, candidates);
-  if (!fix.empty()) fix.insert(fix.size() - 1, "." + quantity);
-  if (fix.empty()) fix = "name a node or an element of this circuit";
-  fail("names '" + base + "', which is neither a node nor an element", fix);
 }
 
 SourceLocation section_location(const TableReader& root, const std::string& key) {
@@ -221,15 +187,6 @@ SourceLocation section_location(const TableReader& root, const std::string& key)
   SourceLocation w;
   w.file = root.file();
   return w;
-}
-
-void check_signals(const Circuit& circuit, const SimulationOptions& sim, const TableReader& root) {
-  const SourceLocation record = section_location(root, "record");
-  for (const auto& s : sim.recorded_signals) check_signal(circuit, s, "[record] signals", record);
-  if (!sim.output_signal.empty()) {
-    check_signal(circuit, sim.output_signal, "[run] output_signal",
-                 section_location(root, "run"));
-  }
 }
 
 double switching_period(const Circuit& circuit, const SimulationOptions& sim,
@@ -291,10 +248,10 @@ CircuitFile parse_circuit_text(std::string_view text, std::string path_label) {
   check_elements_are_not_nodes(circuit);
   check_gates(circuit, gates);
 
-  SimulationOptions sim = detail::read_run(single_table(root, "run"), file);
+  SimulationOptions sim = detail::read_run(single_table(root, "run"), file, circuit);
   const double period_s = switching_period(circuit, sim, root);
-  RecordingOptions rec = detail::read_record(single_table(root, "record"), file, period_s, sim);
-  check_signals(circuit, sim, root);
+  RecordingOptions rec =
+      detail::read_record(single_table(root, "record"), file, circuit, period_s, sim);
   validate_at(sim, section_location(root, "run"));
   validate_at(rec, section_location(root, "record"));
 

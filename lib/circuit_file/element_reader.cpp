@@ -12,8 +12,27 @@ constexpr double kInf = std::numeric_limits<double>::infinity();
 
 std::string section_of(const std::string& key) { return "[[" + key + "]]"; }
 
+// What the fix text suggests for a missing name, per section.
+std::string name_example(const std::string& section) {
+  static const std::vector<std::pair<std::string, std::string>> examples{
+      {"[[resistor]]", "R1"},
+      {"[[inductor]]", "L1"},
+      {"[[capacitor]]", "C1"},
+      {"[[voltage_source]]", "Vin"},
+      {"[[current_source]]", "Iload"},
+      {"[[switch]]", "S1"},
+      {"[[diode]]", "D1"},
+      {"[[pwm]]", "pwm1"},
+      {"[[complementary_pwm]]", "hb"},
+      {"[[schedule]]", "load_step"}};
+  for (const auto& [key, example] : examples) {
+    if (key == section) return "\"" + example + "\"";
+  }
+  return "\"X1\"";
+}
+
 std::string read_name(const TableReader& reader, std::string_view what) {
-  std::string name = reader.string("name", "\"R1\"");
+  std::string name = reader.string("name", name_example(reader.section()));
   check_name(reader, *reader.find("name"), name, what);
   return name;
 }
@@ -70,8 +89,8 @@ void read_inductor(const TableReader& reader, Circuit& circuit) {
   auto [a, b] = read_nodes(reader, "current flows from the first to the second");
   const double l = reader.value("inductance", Unit::kHenry, Range::positive(), "\"10 uH\"");
   InductorOptions options;
-  options.winding_resistance_ohm = reader.value_or("winding_resistance", Unit::kOhm,
-                                                   Range::non_negative(), "\"20 mOhm\"", 0.0);
+  options.winding_resistance_ohm =
+      reader.value_or("winding_resistance", Unit::kOhm, Range::non_negative(), "\"20 mOhm\"", 0.0);
   options.initial_current_a =
       reader.value_or("initial_current", Unit::kAmpere, Range::any(), "\"0 A\"", 0.0);
   circuit.add_inductor(reader.element(), a, b, l, options, reader.location());
@@ -81,8 +100,8 @@ void read_capacitor(const TableReader& reader, Circuit& circuit) {
   auto [a, b] = read_nodes(reader, "positive terminal first");
   const double c = reader.value("capacitance", Unit::kFarad, Range::positive(), "\"47 uF\"");
   CapacitorOptions options;
-  options.series_resistance_ohm = reader.value_or("series_resistance", Unit::kOhm,
-                                                  Range::non_negative(), "\"5 mOhm\"", 0.0);
+  options.series_resistance_ohm =
+      reader.value_or("series_resistance", Unit::kOhm, Range::non_negative(), "\"5 mOhm\"", 0.0);
   options.initial_voltage_v =
       reader.value_or("initial_voltage", Unit::kVolt, Range::any(), "\"0 V\"", 0.0);
   circuit.add_capacitor(reader.element(), a, b, c, options, reader.location());
@@ -110,8 +129,8 @@ Waveform read_table(const TableReader& w, Unit unit, const std::string& example)
       w.fail(ErrorKind::kInvalidValue, &point, "each point must be a [time, value] pair",
              "write e.g. points = " + points_example);
     }
-    const double t = w.value_at(*pair->get(0), "point time", Unit::kSecond,
-                                Range::non_negative(), "\"1 ms\"");
+    const double t =
+        w.value_at(*pair->get(0), "point time", Unit::kSecond, Range::non_negative(), "\"1 ms\"");
     const double v = w.value_at(*pair->get(1), "point value", unit, Range::any(), example);
     if (!out.empty() && !(t > out.back().first)) {
       w.fail(ErrorKind::kInvalidValue, &point,
@@ -261,8 +280,7 @@ bool read_gate_state(const TableReader& reader, const toml::node& node, std::str
     if (s->get() == "on") return true;
     if (s->get() == "off") return false;
   }
-  reader.fail(ErrorKind::kInvalidValue, &node,
-              std::string(what) + " must be \"on\" or \"off\"",
+  reader.fail(ErrorKind::kInvalidValue, &node, std::string(what) + " must be \"on\" or \"off\"",
               "write \"on\" or \"off\" (or true / false)");
 }
 
@@ -293,8 +311,7 @@ void check_name(const TableReader& reader, const toml::node& node, const std::st
     if (static_cast<unsigned char>(c) < 0x20) bad = "contains a control character";
   }
   if (bad.empty()) return;
-  reader.fail(ErrorKind::kInvalidValue, &node,
-              std::string(what) + " name \"" + name + "\" " + bad,
+  reader.fail(ErrorKind::kInvalidValue, &node, std::string(what) + " name \"" + name + "\" " + bad,
               "use letters, digits, '_' or '-', e.g. \"sw_node\"");
 }
 
@@ -311,8 +328,8 @@ void read_element(const std::string& section, const toml::table& table, const st
 
 std::vector<NamedPlace> read_pwm(const toml::table& table, const std::string& file,
                                  Circuit& circuit) {
-  TableReader reader(table, file, "[[pwm]]",
-                     {"name", "frequency", "duty", "phase", "soft_start"}, peek_name(table));
+  TableReader reader(table, file, "[[pwm]]", {"name", "frequency", "duty", "phase", "soft_start"},
+                     peek_name(table));
   reader.set_element(read_name(reader, "modulator"));
   PwmModulator m;
   read_pwm_common(reader, m);
@@ -336,8 +353,7 @@ std::vector<NamedPlace> read_complementary_pwm(const toml::table& table, const s
 
 std::vector<NamedPlace> read_schedule(const toml::table& table, const std::string& file,
                                       Circuit& circuit) {
-  TableReader reader(table, file, "[[schedule]]", {"name", "initial", "changes"},
-                     peek_name(table));
+  TableReader reader(table, file, "[[schedule]]", {"name", "initial", "changes"}, peek_name(table));
   reader.set_element(read_name(reader, "schedule"));
   GateSchedule g;
   g.name = reader.element();

@@ -3,8 +3,9 @@
 // duplicate names) are checked once the whole file has been read.
 #pragma once
 
-#include <string>
 #include <toml++/toml.h>
+#include <set>
+#include <string>
 #include <vector>
 
 #include "pulsewise/circuit.hpp"
@@ -44,12 +45,21 @@ std::vector<NamedPlace> read_complementary_pwm(const toml::table& table, const s
 std::vector<NamedPlace> read_schedule(const toml::table& table, const std::string& file,
                                       Circuit& circuit);
 
-// [run]; `run` may be null (all defaults).
-SimulationOptions read_run(const toml::table* run, const std::string& file);
+// Every node name the elements use (ground included).
+std::set<std::string> node_names(const Circuit& circuit);
+
+// A signal is "<node>.v", "<element>.v" or "<element>.i" of this circuit; `at` is where it was
+// written, `key` how the message names the list ("[record] signals").
+void check_signal(const Circuit& circuit, const std::string& signal, const TableReader& reader,
+                  const toml::node& at, std::string_view key);
+
+// [run]; `run` may be null (all defaults). Signal names are checked against the circuit.
+SimulationOptions read_run(const toml::table* run, const std::string& file, const Circuit& circuit);
 
 // [record]; `record` may be null. Fills options.recorded_signals from `signals`. Windows given
 // in periods are turned into seconds with switching_period_s and the run length.
 RecordingOptions read_record(const toml::table* record, const std::string& file,
-                             double switching_period_s, SimulationOptions& options);
+                             const Circuit& circuit, double switching_period_s,
+                             SimulationOptions& options);
 
 }  // namespace pulsewise::detail

@@ -196,10 +196,9 @@ std::optional<SiParseResult> refuse_known_misspelling(std::string_view text,
                    "write k, e.g. \"100 k" + unit + "\"");
   }
   if (expected != Unit::kNone && wrong_case_of(suffix, unit)) {
-    return failure(ErrorKind::kWrongUnit,
-                   quoted(text) + ": unit symbols are case-sensitive",
-                   "write " + unit + " for " + unit_name(expected) + ", e.g. " +
-                       example_for(expected));
+    return failure(
+        ErrorKind::kWrongUnit, quoted(text) + ": unit symbols are case-sensitive",
+        "write " + unit + " for " + unit_name(expected) + ", e.g. " + example_for(expected));
   }
   return std::nullopt;
 }

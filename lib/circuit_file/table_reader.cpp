@@ -110,6 +110,7 @@ void TableReader::fail(ErrorKind kind, const toml::node* at, std::string problem
 
 void TableReader::fail_at(ErrorKind kind, SourceLocation where, std::string problem,
                           std::string fix) const {
+  if (kind == ErrorKind::kInvalidValue) kind = value_error_;
   throw InputError(kind, element_, in_section() + problem, std::move(fix), std::move(where));
 }
 
@@ -124,8 +125,8 @@ const toml::node& TableReader::require(std::string_view key, std::string_view ex
   return *node;
 }
 
-double TableReader::value_at(const toml::node& node, std::string_view what, Unit unit,
-                             Range range, std::string_view example) const {
+double TableReader::value_at(const toml::node& node, std::string_view what, Unit unit, Range range,
+                             std::string_view example) const {
   const std::string name(what);
   double x = 0.0;
   if (const auto* i = node.as_integer()) {
@@ -159,8 +160,8 @@ double TableReader::value(std::string_view key, Unit unit, Range range,
   return value_at(require(key, example), key, unit, range, example);
 }
 
-double TableReader::value_or(std::string_view key, Unit unit, Range range,
-                             std::string_view example, double fallback) const {
+double TableReader::value_or(std::string_view key, Unit unit, Range range, std::string_view example,
+                             double fallback) const {
   const toml::node* node = find(key);
   return node ? value_at(*node, key, unit, range, example) : fallback;
 }
@@ -188,13 +189,12 @@ long TableReader::integer_at(const toml::node& node, std::string_view what, long
   long n = 0;
   if (const auto* i = node.as_integer()) {
     n = static_cast<long>(i->get());
-  } else if (const auto* f = node.as_floating_point();
-             f && std::isfinite(f->get()) && std::floor(f->get()) == f->get() &&
-             std::fabs(f->get()) < 9e15) {
+  } else if (const auto* f = node.as_floating_point(); f && std::isfinite(f->get()) &&
+                                                       std::floor(f->get()) == f->get() &&
+                                                       std::fabs(f->get()) < 9e15) {
     n = static_cast<long>(f->get());
   } else {
-    fail(ErrorKind::kInvalidValue, &node,
-         name + " must be a whole number, not " + written(node),
+    fail(ErrorKind::kInvalidValue, &node, name + " must be a whole number, not " + written(node),
          "write e.g. " + name + " = " + example + " (no quotes, no unit)");
   }
   if (n < min || n > max) {
@@ -219,8 +219,7 @@ bool TableReader::boolean_or(std::string_view key, bool fallback) const {
   if (!b) {
     fail(ErrorKind::kInvalidValue, node,
          std::string(key) + " must be true or false, not " + written(*node),
-         "write " + std::string(key) + " = true or " + std::string(key) +
-             " = false (no quotes)");
+         "write " + std::string(key) + " = true or " + std::string(key) + " = false (no quotes)");
   }
   return b->get();
 }

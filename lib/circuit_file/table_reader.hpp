@@ -3,11 +3,11 @@
 // when the reader is made, so a misspelt required key is reported as a typo, not as missing.
 #pragma once
 
+#include <toml++/toml.h>
 #include <limits>
 #include <optional>
 #include <string>
 #include <string_view>
-#include <toml++/toml.h>
 #include <vector>
 
 #include "pulsewise/error.hpp"
@@ -25,9 +25,9 @@ struct Range {
   static Range any() { return {}; }
   static Range positive() { return {0.0, std::numeric_limits<double>::infinity(), true, false}; }
   static Range non_negative() { return {0.0, std::numeric_limits<double>::infinity()}; }
-  static Range fraction() { return {0.0, 1.0}; }            // [0, 1]
+  static Range fraction() { return {0.0, 1.0}; }                   // [0, 1]
   static Range open_fraction() { return {0.0, 1.0, true, true}; }  // (0, 1)
-  static Range phase() { return {0.0, 1.0, false, true}; }  // [0, 1)
+  static Range phase() { return {0.0, 1.0, false, true}; }         // [0, 1)
 
   bool contains(double x) const;
   std::string describe(Unit unit) const;  // "greater than 0 Ohm", "between 0 and 1", ...
@@ -46,6 +46,9 @@ class TableReader {
   // Name used as the element in every later message (once the element's name is known).
   void set_element(std::string name) { element_ = std::move(name); }
   const std::string& element() const { return element_; }
+  // The kind reported for a bad value: kInvalidValue for circuit data (the default),
+  // kInvalidOption for [run] and [record].
+  void set_value_error_kind(ErrorKind kind) { value_error_ = kind; }
   const std::string& section() const { return section_; }
   const std::string& file() const { return file_; }
   const toml::table& table() const { return table_; }
@@ -88,6 +91,7 @@ class TableReader {
   std::string section_;
   std::vector<std::string> known_keys_;
   std::string element_;
+  ErrorKind value_error_ = ErrorKind::kInvalidValue;
 };
 
 }  // namespace pulsewise::detail
