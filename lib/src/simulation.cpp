@@ -72,6 +72,9 @@ struct Simulation::Impl {
   // Layout of z.
   int n_x = 0, n_u = 0, n_r = 0, n_z = 0;
   std::vector<int> ramp_inputs;  // input index of each slope entry
+  // Slope slot r holds du/dt / ramp_scale[r]: 1 for tables, w for sinusoids (keeps ||M|| ~ w).
+  std::vector<double> ramp_scale, ramp_offset;
+  std::vector<bool> ramp_oscillates;
   std::vector<int> recorded;     // signal indices
   std::vector<int> diode_bits;   // device bits of the diodes (one event row each)
   std::vector<int> inductor_states;
@@ -117,9 +120,15 @@ struct Simulation::Impl {
   void set_up_layout() {
     n_x = static_cast<int>(model.state_count());
     n_u = static_cast<int>(model.input_count());
-    for (std::size_t k = 0; k < model.input_elements().size(); ++k)
-      if (model.circuit().elements()[model.input_elements()[k]].waveform.can_ramp())
-        ramp_inputs.push_back(static_cast<int>(k));
+    for (std::size_t k = 0; k < model.input_elements().size(); ++k) {
+      const Waveform& w = model.circuit().elements()[model.input_elements()[k]].waveform;
+      if (!w.can_ramp()) continue;
+      ramp_inputs.push_back(static_cast<int>(k));
+      const bool oscillates = w.is_sinusoidal() && w.angular_frequency() > 0;
+      ramp_oscillates.push_back(oscillates);
+      ramp_scale.push_back(oscillates ? w.angular_frequency() : 1.0);
+      ramp_offset.push_back(w.offset());
+    }
     n_r = static_cast<int>(ramp_inputs.size());
     n_z = n_x + n_u + n_r;
     for (std::size_t d = 0; d < model.devices().size(); ++d)
@@ -203,7 +212,15 @@ struct Simulation::Impl {
     pd.M = Eigen::MatrixXd::Zero(n_z, n_z);
     pd.M.topLeftCorner(n_x, n_x) = cfg.A;
     pd.M.block(0, n_x, n_x, n_u) = cfg.B;
-    for (int r = 0; r < n_r; ++r) pd.M(n_x + ramp_inputs[r], n_x + n_u + r) = 1.0;
+    for (int r = 0; r < n_r; ++r) {
+      // u' = scale * r; for a sinusoid also r' = -w (u - offset) (harmonic oscillator).
+      const int u_row = n_x + ramp_inputs[r], r_row = n_x + n_u + r;
+      pd.M(u_row, r_row) = ramp_scale[r];
+      if (ramp_oscillates[r]) {
+        pd.M(r_row, u_row) = -ramp_scale[r];
+        pd.M(r_row, n_x + n_u - 1) = ramp_scale[r] * ramp_offset[r];
+      }
+    }
     pd.recorded.resize(recorded.size(), n_z);
     for (std::size_t j = 0; j < recorded.size(); ++j) pd.recorded.row(j) = signal_row(cfg, recorded[j]);
     pd.events.resize(diode_bits.size(), n_z);
@@ -536,16 +553,18 @@ struct Simulation::Impl {
     Eigen::VectorXd& du = du_new;
     model.inputs_at(t, u);
     model.input_slopes_at(t, du);
-    const bool inputs_changed = (u - z.segment(n_x, n_u)).cwiseAbs().maxCoeff() > 0 ||
-                                [&] {
-                                  for (int r = 0; r < n_r; ++r)
-                                    if (du[ramp_inputs[r]] != z[n_x + n_u + r]) return true;
-                                  return false;
-                                }();
+    // Sinusoids evolve inside z exactly; only their breakpoints (a rectified sine's zero
+    // crossings, where the slope flips) reset them. Everything else is reset when it differs.
+    const bool at_breakpoint = std::abs(next_breakpoint(t - 2e-12 * period_s) - t) <=
+                               2e-12 * period_s;
+    bool inputs_changed = at_breakpoint;
+    for (int k = 0; k < n_u && !inputs_changed; ++k)
+      inputs_changed = !is_oscillator_input(k) && u[k] != z[n_x + k];
+    for (int r = 0; r < n_r && !inputs_changed; ++r)
+      inputs_changed = !ramp_oscillates[r] && du[ramp_inputs[r]] != z[n_x + n_u + r];
     const DevicePattern changed = (pattern & gates->switch_mask()) ^ switches;
     if (!changed && !inputs_changed) return true;
-    z.segment(n_x, n_u) = u;
-    for (int r = 0; r < n_r; ++r) z[n_x + n_u + r] = du[ramp_inputs[r]];
+    if (inputs_changed) load_inputs(u, du);
     if (changed) {
       pattern = (pattern & ~gates->switch_mask()) | switches;
       in_idle = false;
@@ -559,6 +578,18 @@ struct Simulation::Impl {
       log_event(EventKind::kSourceBreakpoint, -1);
     }
     return make_consistent();
+  }
+
+  bool is_oscillator_input(int k) const {
+    for (int r = 0; r < n_r; ++r)
+      if (ramp_inputs[r] == k) return ramp_oscillates[r];
+    return false;
+  }
+
+  // Input values and scaled slopes into z.
+  void load_inputs(const Eigen::VectorXd& u, const Eigen::VectorXd& du) {
+    z.segment(n_x, n_u) = u;
+    for (int r = 0; r < n_r; ++r) z[n_x + n_u + r] = du[ramp_inputs[r]] / ramp_scale[r];
   }
 
   double next_breakpoint(double after) const {
@@ -644,14 +675,13 @@ struct Simulation::Impl {
     t = 0.0;
     z.setZero();
     z.head(n_x) = x0;
-    model.inputs_at(0.0, z.segment(n_x, n_u));
-    Eigen::VectorXd du(n_u);
-    model.input_slopes_at(0.0, du);
-    for (int r = 0; r < n_r; ++r) z[n_x + n_u + r] = du[ramp_inputs[r]];
+    model.inputs_at(0.0, u_new);
+    model.input_slopes_at(0.0, du_new);
+    load_inputs(u_new, du_new);
     for (int k = 0; k < n_u - 1; ++k) {
       const Element& e = model.circuit().elements()[model.input_elements()[k]];
       double& scale = e.kind == ElementKind::kVoltageSource ? voltage_scale : current_scale;
-      for (const auto& p : e.waveform.points()) scale = std::max(scale, std::abs(p.second));
+      scale = std::max(scale, e.waveform.peak_magnitude());
     }
     current_scale = std::max(current_scale, 1e-3 * voltage_scale);
     pattern = gates->switch_pattern(0.0);

@@ -78,6 +78,12 @@ void require_non_negative(const Element& e, double v, const char* what, const ch
 }
 
 void check_waveform(const Element& e) {
+  const Waveform& w = e.waveform;
+  if (w.is_sinusoidal() &&
+      !(std::isfinite(w.offset()) && std::isfinite(w.amplitude()) && std::isfinite(w.phase_rad()) &&
+        std::isfinite(w.frequency_hz()) && w.frequency_hz() > 0))
+    fail(ErrorKind::kInvalidValue, e, "sine waveform needs finite values and a positive frequency",
+         "give offset, amplitude and phase as finite numbers and a frequency in Hz above 0");
   const auto& pts = e.waveform.points();
   for (std::size_t k = 0; k < pts.size(); ++k) {
     if (!std::isfinite(pts[k].first) || !std::isfinite(pts[k].second))
