@@ -16,7 +16,7 @@ file(REMOVE_RECURSE ${WORK_DIR})
 file(MAKE_DIRECTORY ${WORK_DIR})
 
 function(step)
-  execute_process(COMMAND ${ARGN} RESULT_VARIABLE rc)
+  execute_process(COMMAND ${ARGN} RESULT_VARIABLE rc WORKING_DIRECTORY ${WORK_DIR})
   if(NOT rc EQUAL 0)
     string(REPLACE ";" " " shown "${ARGN}")
     message(FATAL_ERROR "consumer test step failed (${rc}): ${shown}")
