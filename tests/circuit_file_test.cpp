@@ -7,10 +7,14 @@
 
 #include <gtest/gtest.h>
 
+#include "pulsewise/simulation.hpp"
+
 #include <cmath>
 #include <filesystem>
 #include <fstream>
 #include <initializer_list>
+#include <regex>
+#include <sstream>
 #include <string>
 #include <vector>
 
@@ -696,6 +700,42 @@ TEST(CircuitFile, LoadsEveryExampleCircuit) {
     EXPECT_FALSE(f.simulation.recorded_signals.empty());
     // A demo should be quick: a few thousand periods at most.
     EXPECT_LE(f.simulation.periods, 5000);
+  }
+}
+
+// The core's structural checks (floating nodes, voltage loops, current cutsets, gate names) run
+// when a Simulation is made; an example that fails them would not run in the demo.
+TEST(CircuitFile, EveryExampleCircuitPassesTheCoreStructuralChecks) {
+  for (const char* name : kExampleFiles) {
+    SCOPED_TRACE(name);
+    const CircuitFile f = load_circuit_file(std::string(PULSEWISE_SOURCE_DIR) + "/data/" + name);
+    EXPECT_NO_THROW(Simulation(f.circuit, f.simulation));
+  }
+}
+
+std::vector<std::string> complete_examples_in(const std::string& path) {
+  std::ifstream in(path);
+  std::stringstream text;
+  text << in.rdbuf();
+  const std::string doc = text.str();
+  std::vector<std::string> out;
+  const std::regex block("```toml\n([^`]*)```");
+  for (auto it = std::sregex_iterator(doc.begin(), doc.end(), block); it != std::sregex_iterator();
+       ++it) {
+    const std::string body = (*it)[1].str();
+    if (body.find("[circuit]") != std::string::npos) out.push_back(body);
+  }
+  return out;
+}
+
+TEST(CircuitFile, TheCompleteExampleOfTheDocumentationLoadsAndPassesTheCoreChecks) {
+  const auto examples =
+      complete_examples_in(std::string(PULSEWISE_SOURCE_DIR) + "/docs/circuit-file.md");
+  ASSERT_FALSE(examples.empty());
+  for (const auto& text : examples) {
+    const CircuitFile f = parse_circuit_text(text, "docs/circuit-file.md");
+    EXPECT_EQ(f.circuit.elements().size(), 11u);
+    EXPECT_NO_THROW(Simulation(f.circuit, f.simulation));
   }
 }
 
