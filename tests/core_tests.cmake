@@ -5,3 +5,4 @@ pulsewise_add_test(configuration_model_test SOURCES configuration_model_test.cpp
 pulsewise_add_test(modulator_test SOURCES modulator_test.cpp LIBS pulsewise::core)
 pulsewise_add_test(simulation_test SOURCES simulation_test.cpp LIBS pulsewise::core)
 pulsewise_add_test(waveform_test SOURCES waveform_test.cpp LIBS pulsewise::core)
+pulsewise_add_test(ode_path_test SOURCES ode_path_test.cpp LIBS pulsewise::core)

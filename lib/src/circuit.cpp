@@ -11,6 +11,7 @@ const char* to_string(ElementKind kind) {
     case ElementKind::kCurrentSource: return "current source";
     case ElementKind::kSwitch: return "switch";
     case ElementKind::kDiode: return "diode";
+    case ElementKind::kConstantPowerLoad: return "constant-power load";
   }
   return "element";
 }
@@ -47,6 +48,8 @@ Circuit& Circuit::add_inductor(std::string name, std::string node_a, std::string
   e.value = inductance_h;
   e.series_resistance_ohm = options.winding_resistance_ohm;
   e.initial_value = options.initial_current_a;
+  e.saturation_current_a = options.saturation_current_a;
+  e.saturated_inductance_h = options.saturated_inductance_h;
   elements_.push_back(std::move(e));
   return *this;
 }
@@ -101,6 +104,23 @@ Circuit& Circuit::add_diode(std::string name, std::string anode, std::string cat
   e.forward_voltage_v = options.forward_voltage_v;
   elements_.push_back(std::move(e));
   return *this;
+}
+
+Circuit& Circuit::add_constant_power_load(std::string name, std::string node_a,
+                                          std::string node_b, double power_w,
+                                          ConstantPowerOptions options, SourceLocation where) {
+  Element e = make_element(ElementKind::kConstantPowerLoad, std::move(name), std::move(node_a),
+                           std::move(node_b), std::move(where));
+  e.power_w = power_w;
+  e.cut_in_voltage_v = options.cut_in_voltage_v;
+  elements_.push_back(std::move(e));
+  return *this;
+}
+
+bool Circuit::has_nonlinear_elements() const {
+  for (const Element& e : elements_)
+    if (e.is_nonlinear()) return true;
+  return false;
 }
 
 Circuit& Circuit::add_modulator(PwmModulator modulator) {

@@ -29,7 +29,14 @@ namespace {
 using detail::NodeGraph;
 using detail::UnionFind;
 
-enum class BranchForm { kNone, kConductance, kVoltageBranch, kInductor, kCurrentSource };
+enum class BranchForm {
+  kNone,
+  kConductance,
+  kVoltageBranch,
+  kInductor,
+  kCurrentSource,
+  kNonlinearCurrent,
+};
 
 struct BranchPlan {
   BranchForm form = BranchForm::kNone;
@@ -62,6 +69,7 @@ std::vector<BranchPlan> plan_branches(const Circuit& c, const std::vector<int>& 
       case ElementKind::kCapacitor: voltage_branch(e.series_resistance_ohm, 0.0); break;
       case ElementKind::kVoltageSource: voltage_branch(0.0, 0.0); break;
       case ElementKind::kCurrentSource: p.form = BranchForm::kCurrentSource; break;
+      case ElementKind::kConstantPowerLoad: p.form = BranchForm::kNonlinearCurrent; break;
       case ElementKind::kSwitch:
       case ElementKind::kDiode: {
         const bool on = (pattern >> device_of[k]) & 1u;
@@ -121,6 +129,7 @@ CircuitModel::CircuitModel(const Circuit& circuit) : circuit_(circuit) {
   state_of_element_.assign(els.size(), -1);
   input_of_element_.assign(els.size(), -1);
   device_of_element_.assign(els.size(), -1);
+  nonlinear_of_element_.assign(els.size(), -1);
   for (auto kind : {ElementKind::kInductor, ElementKind::kCapacitor}) {
     for (std::size_t k = 0; k < els.size(); ++k) {
       if (els[k].kind != kind) continue;
@@ -136,6 +145,10 @@ CircuitModel::CircuitModel(const Circuit& circuit) : circuit_(circuit) {
     if (els[k].is_device()) {
       device_of_element_[k] = static_cast<int>(devices_.size());
       devices_.push_back(static_cast<int>(k));
+    }
+    if (els[k].kind == ElementKind::kConstantPowerLoad) {
+      nonlinear_of_element_[k] = static_cast<int>(nonlinear_elements_.size());
+      nonlinear_elements_.push_back(static_cast<int>(k));
     }
   }
   for (const auto& node : node_names_)
@@ -206,16 +219,17 @@ namespace {
 
 // Dense nodal system M w = Nx x + Nu u for one configuration, w = [e; j].
 struct NodalSystem {
-  Eigen::MatrixXd M, Nx, Nu;
+  Eigen::MatrixXd M, Nx, Nu, Nn;
 };
 
 class ConfigurationBuilder {
  public:
   ConfigurationBuilder(const Circuit& c, const NodeGraph& g, const std::vector<int>& state_of,
                        const std::vector<int>& input_of, const std::vector<int>& device_of,
-                       std::size_t n_states, std::size_t n_inputs)
+                       const std::vector<int>& nonlinear_of, std::size_t n_states,
+                       std::size_t n_inputs, std::size_t n_nonlinear)
       : c_(c), g_(g), state_of_(state_of), input_of_(input_of), device_of_(device_of),
-        n_x_(n_states), n_u_(n_inputs) {}
+        nonlinear_of_(nonlinear_of), n_x_(n_states), n_u_(n_inputs), n_n_(n_nonlinear) {}
 
   ConfigurationModel build(DevicePattern pattern, const std::vector<SignalInfo>& signals);
 
@@ -225,9 +239,13 @@ class ConfigurationBuilder {
   void replace_group_rows(NodalSystem& s, ConfigurationModel& model,
                           const std::vector<int>& group_of_node);
   // Row of an element's voltage over [e; j] plus its (x, u) part.
-  void element_rows(int k, const Eigen::MatrixXd& Sx, const Eigen::MatrixXd& Su,
-                    Eigen::RowVectorXd& vx, Eigen::RowVectorXd& vu, Eigen::RowVectorXd& ix,
-                    Eigen::RowVectorXd& iu) const;
+  struct Solution {
+    Eigen::MatrixXd Sx, Su, Sn;
+  };
+  struct Rows {
+    Eigen::RowVectorXd vx, vu, vn, ix, iu, in;
+  };
+  Rows element_rows(int k, const Solution& s) const;
 
   int unit() const { return static_cast<int>(n_u_) - 1; }
   bool real_node(int n) const { return n < g_.ground(); }
@@ -237,7 +255,8 @@ class ConfigurationBuilder {
   const std::vector<int>& state_of_;
   const std::vector<int>& input_of_;
   const std::vector<int>& device_of_;
-  std::size_t n_x_, n_u_;
+  const std::vector<int>& nonlinear_of_;
+  std::size_t n_x_, n_u_, n_n_;
   std::vector<BranchPlan> plan_;
   int n_branches_ = 0;
   int n_nodes_ = 0;
@@ -248,6 +267,7 @@ void ConfigurationBuilder::stamp(NodalSystem& s) {
   s.M = Eigen::MatrixXd::Zero(n, n);
   s.Nx = Eigen::MatrixXd::Zero(n, n_x_);
   s.Nu = Eigen::MatrixXd::Zero(n, n_u_);
+  s.Nn = Eigen::MatrixXd::Zero(n, n_n_);
   for (std::size_t k = 0; k < plan_.size(); ++k) {
     const int a = g_.node_a[k], b = g_.node_b[k];
     const BranchPlan& p = plan_[k];
@@ -270,6 +290,10 @@ void ConfigurationBuilder::stamp(NodalSystem& s) {
       case BranchForm::kCurrentSource:  // delivers u out of its plus terminal into node a
         if (real_node(a)) s.Nu(a, input_of_[k]) += 1.0;
         if (real_node(b)) s.Nu(b, input_of_[k]) -= 1.0;
+        break;
+      case BranchForm::kNonlinearCurrent:  // a load: n flows a -> b through the element
+        if (real_node(a)) s.Nn(a, nonlinear_of_[k]) -= 1.0;
+        if (real_node(b)) s.Nn(b, nonlinear_of_[k]) += 1.0;
         break;
       case BranchForm::kVoltageBranch: {
         const int row = n_nodes_ + p.branch;
@@ -338,6 +362,7 @@ void ConfigurationBuilder::replace_group_rows(NodalSystem& s, ConfigurationModel
     s.M.row(row).setZero();
     s.Nx.row(row).setZero();
     s.Nu.row(row).setZero();
+    s.Nn.row(row).setZero();
     auto inside = [&](int node) {
       return real_node(node) && group_of_node[node] == static_cast<int>(gi);
     };
@@ -362,35 +387,40 @@ void ConfigurationBuilder::replace_group_rows(NodalSystem& s, ConfigurationModel
   }
 }
 
-void ConfigurationBuilder::element_rows(int k, const Eigen::MatrixXd& Sx,
-                                        const Eigen::MatrixXd& Su, Eigen::RowVectorXd& vx,
-                                        Eigen::RowVectorXd& vu, Eigen::RowVectorXd& ix,
-                                        Eigen::RowVectorXd& iu) const {
+ConfigurationBuilder::Rows ConfigurationBuilder::element_rows(int k, const Solution& sol) const {
   const int a = g_.node_a[k], b = g_.node_b[k];
-  vx = Eigen::RowVectorXd::Zero(n_x_);
-  vu = Eigen::RowVectorXd::Zero(n_u_);
-  if (real_node(a)) vx += Sx.row(a), vu += Su.row(a);
-  if (real_node(b)) vx -= Sx.row(b), vu -= Su.row(b);
-  ix = Eigen::RowVectorXd::Zero(n_x_);
-  iu = Eigen::RowVectorXd::Zero(n_u_);
+  Rows r;
+  r.vx = Eigen::RowVectorXd::Zero(n_x_);
+  r.vu = Eigen::RowVectorXd::Zero(n_u_);
+  r.vn = Eigen::RowVectorXd::Zero(n_n_);
+  if (real_node(a)) r.vx += sol.Sx.row(a), r.vu += sol.Su.row(a), r.vn += sol.Sn.row(a);
+  if (real_node(b)) r.vx -= sol.Sx.row(b), r.vu -= sol.Su.row(b), r.vn -= sol.Sn.row(b);
+  r.ix = Eigen::RowVectorXd::Zero(n_x_);
+  r.iu = Eigen::RowVectorXd::Zero(n_u_);
+  r.in = Eigen::RowVectorXd::Zero(n_n_);
   const BranchPlan& p = plan_[k];
   const Element& e = c_.elements()[k];
   switch (p.form) {
     case BranchForm::kNone: break;
     case BranchForm::kConductance:
-      ix = p.conductance * vx;
-      iu = p.conductance * vu;
-      iu[unit()] -= p.conductance * p.offset_v;
+      r.ix = p.conductance * r.vx;
+      r.iu = p.conductance * r.vu;
+      r.in = p.conductance * r.vn;
+      r.iu[unit()] -= p.conductance * p.offset_v;
       break;
-    case BranchForm::kInductor: ix[state_of_[k]] = 1.0; break;
-    case BranchForm::kCurrentSource: iu[input_of_[k]] = 1.0; break;
+    case BranchForm::kInductor: r.ix[state_of_[k]] = 1.0; break;
+    case BranchForm::kCurrentSource: r.iu[input_of_[k]] = 1.0; break;
+    case BranchForm::kNonlinearCurrent: r.in[nonlinear_of_[k]] = 1.0; break;
     case BranchForm::kVoltageBranch: {
       const double sign = e.kind == ElementKind::kVoltageSource ? -1.0 : 1.0;
-      ix = sign * Sx.row(n_nodes_ + p.branch);
-      iu = sign * Su.row(n_nodes_ + p.branch);
+      const int row = n_nodes_ + p.branch;
+      r.ix = sign * sol.Sx.row(row);
+      r.iu = sign * sol.Su.row(row);
+      r.in = sign * sol.Sn.row(row);
       break;
     }
   }
+  return r;
 }
 
 ConfigurationModel ConfigurationBuilder::build(DevicePattern pattern,
@@ -423,31 +453,35 @@ ConfigurationModel ConfigurationBuilder::build(DevicePattern pattern,
     model.problem = "the nodal equations of this configuration are singular";
     return model;
   }
-  const Eigen::MatrixXd Sx = lu.solve(s.Nx), Su = lu.solve(s.Nu);
+  const Solution sol{lu.solve(s.Nx), lu.solve(s.Nu), lu.solve(s.Nn)};
   model.A = Eigen::MatrixXd::Zero(n_x_, n_x_);
   model.B = Eigen::MatrixXd::Zero(n_x_, n_u_);
+  model.E = Eigen::MatrixXd::Zero(n_x_, n_n_);
   model.C = Eigen::MatrixXd::Zero(signals.size(), n_x_);
   model.D = Eigen::MatrixXd::Zero(signals.size(), n_u_);
+  model.F = Eigen::MatrixXd::Zero(signals.size(), n_n_);
   for (int node = 0; node < n_nodes_; ++node) {
-    model.C.row(node) = Sx.row(node);
-    model.D.row(node) = Su.row(node);
+    model.C.row(node) = sol.Sx.row(node);
+    model.D.row(node) = sol.Su.row(node);
+    model.F.row(node) = sol.Sn.row(node);
   }
   for (std::size_t k = 0; k < plan_.size(); ++k) {
-    Eigen::RowVectorXd vx, vu, ix, iu;
-    element_rows(static_cast<int>(k), Sx, Su, vx, vu, ix, iu);
+    const Rows r = element_rows(static_cast<int>(k), sol);
     const int vs = n_nodes_ + 2 * static_cast<int>(k);
-    model.C.row(vs) = vx, model.D.row(vs) = vu;
-    model.C.row(vs + 1) = ix, model.D.row(vs + 1) = iu;
+    model.C.row(vs) = r.vx, model.D.row(vs) = r.vu, model.F.row(vs) = r.vn;
+    model.C.row(vs + 1) = r.ix, model.D.row(vs + 1) = r.iu, model.F.row(vs + 1) = r.in;
     const Element& e = c_.elements()[k];
-    if (e.kind == ElementKind::kInductor) {  // L di/dt = v - R i
+    if (e.kind == ElementKind::kInductor) {  // L di/dt = v - R i (L: the unsaturated value)
       const int x = state_of_[k];
-      model.A.row(x) = vx / e.value;
+      model.A.row(x) = r.vx / e.value;
       model.A(x, x) -= e.series_resistance_ohm / e.value;
-      model.B.row(x) = vu / e.value;
+      model.B.row(x) = r.vu / e.value;
+      model.E.row(x) = r.vn / e.value;
     } else if (e.kind == ElementKind::kCapacitor) {  // C dv/dt = i
       const int x = state_of_[k];
-      model.A.row(x) = ix / e.value;
-      model.B.row(x) = iu / e.value;
+      model.A.row(x) = r.ix / e.value;
+      model.B.row(x) = r.iu / e.value;
+      model.E.row(x) = r.in / e.value;
     }
   }
   model.valid = true;
@@ -459,7 +493,8 @@ ConfigurationModel ConfigurationBuilder::build(DevicePattern pattern,
 ConfigurationModel CircuitModel::build(DevicePattern pattern) const {
   const NodeGraph graph(circuit_);
   ConfigurationBuilder builder(circuit_, graph, state_of_element_, input_of_element_,
-                               device_of_element_, state_count(), input_count());
+                               device_of_element_, nonlinear_of_element_, state_count(),
+                               input_count(), nonlinear_elements_.size());
   return builder.build(pattern, signals_);
 }
 

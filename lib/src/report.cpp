@@ -77,6 +77,10 @@ void SimulationOptions::validate() const {
           "keep the default 5");
   require(settling_band > 0 && settling_band < 1, "settling_band", "must be in (0, 1)",
           "use a band such as 0.02 (2 %)");
+  require(ode_relative_tolerance > 0 && ode_relative_tolerance < 1e-2, "ode_relative_tolerance",
+          "must be in (0, 1e-2)", "keep the default 1e-10");
+  require(ode_absolute_tolerance > 0, "ode_absolute_tolerance", "must be positive",
+          "keep the default 1e-12");
   require(boundary_tolerance >= 0 && boundary_tolerance < 1, "boundary_tolerance",
           "must be in [0, 1)", "keep the default 1e-3");
 }

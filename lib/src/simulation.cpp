@@ -7,6 +7,14 @@
 // cycle end) and by the sub-step bound; on each piece every device condition g(s) >= 0 is a
 // polynomial and its first downward crossing is located by safeguarded Newton. After an event the
 // configuration is made consistent at t+ (see make_consistent()).
+//
+// Circuits with nonlinear elements (saturating inductors, constant-power loads) take the ODE
+// path instead: the same configurations, events and metrics, but each interval is integrated by
+// Boost.Odeint's Dormand-Prince 5(4) pair with dense output (J. R. Dormand and P. J. Prince,
+// "A family of embedded Runge-Kutta formulae", J. Comput. Appl. Math. 6(1), 1980). Events are
+// bracketed on the dense output at four points per step and refined by the Illinois variant of
+// regula falsi; averages and RMS use 5-point Gauss-Legendre quadrature on the dense output, so
+// on this path they are as accurate as the integration tolerance, not exact.
 #include "pulsewise/simulation.hpp"
 
 #include <algorithm>
@@ -15,7 +23,10 @@
 #include <set>
 #include <sstream>
 
+#include <boost/numeric/odeint.hpp>
+
 #include "detail/engine.hpp"
+#include "detail/nonlinear.hpp"
 #include "detail/polynomial.hpp"
 
 namespace pulsewise {
@@ -81,6 +92,12 @@ struct Simulation::Impl {
   std::vector<std::pair<int, EnergyTerm>> energy_elements;  // element index, role
   int output_recorded = -1;      // index into recorded
   std::map<DevicePattern, PatternData> patterns;
+  // ODE path.
+  bool nonlinear = false;
+  int n_n = 0;
+  std::vector<std::pair<int, detail::SaturationCurve>> saturating;  // state index, curve
+  std::vector<detail::ConstantPowerLaw> loads;                      // per nonlinear current
+  Eigen::VectorXd n_guess;                                          // warm start of the loads
   PatternData uncached;
   Eigen::VectorXd x0;
 
@@ -114,7 +131,23 @@ struct Simulation::Impl {
     set_up_layout();
     set_up_recorded();
     set_up_energy();
+    set_up_nonlinear();
     x0 = model.initial_state();
+  }
+
+  void set_up_nonlinear() {
+    nonlinear = model.circuit().has_nonlinear_elements() || options.force_ode_path;
+    n_n = static_cast<int>(model.nonlinear_elements().size());
+    for (int s = 0; s < n_x; ++s) {
+      const Element& e = model.circuit().elements()[model.state_elements()[s]];
+      if (e.is_saturating())
+        saturating.push_back({s, {e.value, e.saturated_inductance_h, e.saturation_current_a}});
+    }
+    for (int el : model.nonlinear_elements()) {
+      const Element& e = model.circuit().elements()[el];
+      loads.push_back({e.power_w, e.cut_in_voltage_v});
+    }
+    n_guess = Eigen::VectorXd::Zero(n_n);
   }
 
   void set_up_layout() {
@@ -188,6 +221,9 @@ struct Simulation::Impl {
         case ElementKind::kDiode:
           energy_elements.push_back({static_cast<int>(k), {EnergyRole::kDissipativeVi, 0.0}});
           break;
+        case ElementKind::kConstantPowerLoad:
+          energy_elements.push_back({static_cast<int>(k), {EnergyRole::kDissipativeVi, 0.0}});
+          break;
         case ElementKind::kInductor:
         case ElementKind::kCapacitor:
           if (e.series_resistance_ohm > 0)
@@ -242,6 +278,42 @@ struct Simulation::Impl {
     }
     const double norm = pd.M.cwiseAbs().colwise().sum().maxCoeff();
     pd.max_step_s = norm > 0 ? options.max_step_norm / norm : kInf;
+    if (n_n > 0) fill_nonlinear_rows(cfg, pd);
+  }
+
+  // Rows of the nonlinear currents n: how they enter dz/dt, the signals and the events, and the
+  // load voltages v = Vz z + Vn n that determine them.
+  void fill_nonlinear_rows(const ConfigurationModel& cfg, PatternData& pd) const {
+    pd.E = Eigen::MatrixXd::Zero(n_z, n_n);
+    pd.E.topRows(n_x) = cfg.E;
+    auto rows_n = [&](auto signal_of, std::size_t count) {
+      Eigen::MatrixXd out(count, n_n);
+      for (std::size_t j = 0; j < count; ++j) out.row(j) = cfg.F.row(signal_of(j));
+      return out;
+    };
+    pd.recorded_n = rows_n([&](std::size_t j) { return recorded[j]; }, recorded.size());
+    pd.events_n = rows_n(
+        [&](std::size_t d) {
+          const int el = model.devices()[diode_bits[d]];
+          return ((cfg.pattern >> diode_bits[d]) & 1u) ? model.element_current_signal(el)
+                                                       : model.element_voltage_signal(el);
+        },
+        diode_bits.size());
+    for (std::size_t d = 0; d < diode_bits.size(); ++d)
+      if (!((cfg.pattern >> diode_bits[d]) & 1u)) pd.events_n.row(d) *= -1.0;
+    pd.energy_n = rows_n(
+        [&](std::size_t r) {
+          const int el = energy_elements[r / 2].first;
+          return r % 2 ? model.element_current_signal(el) : model.element_voltage_signal(el);
+        },
+        2 * energy_elements.size());
+    pd.load_voltage_z.resize(n_n, n_z);
+    pd.load_voltage_n.resize(n_n, n_n);
+    for (int k = 0; k < n_n; ++k) {
+      const int signal = model.element_voltage_signal(model.nonlinear_elements()[k]);
+      pd.load_voltage_z.row(k) = signal_row(cfg, signal);
+      pd.load_voltage_n.row(k) = cfg.F.row(signal);
+    }
   }
 
   const PatternData& data_for(DevicePattern p) {
@@ -332,6 +404,7 @@ struct Simulation::Impl {
 
   // Most violated diode condition at t+: g < -tol, or g within tol and decreasing.
   int worst_violation(const PatternData& pd) {
+    if (nonlinear) return worst_violation_nonlinear(pd);
     scratch.noalias() = pd.M * z;
     int worst = -1;
     double worst_value = 0.0;
@@ -487,11 +560,7 @@ struct Simulation::Impl {
     accumulate_signals(h);
     if (options.energy_accounting) accumulate_energy(h);
     track_inductor_peaks();
-    if (!cycle.intervals.empty() && cycle.intervals.back().pattern == pattern)
-      cycle.intervals.back().fraction += h / period_s;
-    else
-      cycle.intervals.push_back({pattern, h / period_s});
-    if (in_idle) cycle.idle_time += h;
+    record_interval(h);
     if (observer) {
       PolynomialPiece view;
       view.t0 = t;
@@ -519,8 +588,268 @@ struct Simulation::Impl {
     return make_consistent();
   }
 
+
+  // ---- ODE path ------------------------------------------------------------------------------
+
+  using OdeState = std::vector<double>;
+  using Dopri = boost::numeric::odeint::runge_kutta_dopri5<OdeState>;
+  using DenseStepper = boost::numeric::odeint::result_of::make_dense_output<Dopri>::type;
+
+  // Load currents n solving n = h(Vz z + Vn n), by Newton's method warm-started from the last
+  // solution (Vn is zero when every load sits across a capacitor, and one step then suffices).
+  void load_currents(const PatternData& pd, const double* zp, Eigen::VectorXd& n) {
+    if (n_n == 0) return;
+    const Eigen::Map<const Eigen::VectorXd> zz(zp, n_z);
+    const Eigen::VectorXd vz = pd.load_voltage_z * zz;
+    n = n_guess;
+    for (int iter = 0; iter < 30; ++iter) {
+      const Eigen::VectorXd v = vz + pd.load_voltage_n * n;
+      Eigen::VectorXd residual(n_n);
+      Eigen::MatrixXd jacobian = Eigen::MatrixXd::Identity(n_n, n_n);
+      for (int k = 0; k < n_n; ++k) {
+        residual[k] = n[k] - loads[k].current(v[k]);
+        jacobian.row(k) -= loads[k].slope(v[k]) * pd.load_voltage_n.row(k);
+      }
+      const Eigen::VectorXd step = jacobian.partialPivLu().solve(residual);
+      n -= step;
+      if (step.lpNorm<Eigen::Infinity>() <= 1e-15 * (1 + n.lpNorm<Eigen::Infinity>())) break;
+    }
+    n_guess = n;
+  }
+
+  void derivative(const PatternData& pd, const double* zp, double* dz) {
+    const Eigen::Map<const Eigen::VectorXd> zz(zp, n_z);
+    Eigen::Map<Eigen::VectorXd> out(dz, n_z);
+    out.noalias() = pd.M * zz;
+    if (n_n > 0) {
+      Eigen::VectorXd n(n_n);
+      load_currents(pd, zp, n);
+      out.noalias() += pd.E * n;
+    }
+    for (const auto& [state, curve] : saturating) out[state] *= curve.l0 / curve.differential_inductance(zp[state]);
+  }
+
+  // Value of a row set (signals, events or energy rows) at state zp, including the loads.
+  double row_value(const Eigen::MatrixXd& rows, const Eigen::MatrixXd& rows_n, int r,
+                   const double* zp, const Eigen::VectorXd& n) const {
+    const Eigen::Map<const Eigen::VectorXd> zz(zp, n_z);
+    double v = rows.row(r).dot(zz);
+    if (n_n > 0) v += rows_n.row(r).dot(n);
+    return v;
+  }
+
+  int worst_violation_nonlinear(const PatternData& pd) {
+    Eigen::VectorXd n(n_n), n_ahead(n_n);
+    load_currents(pd, z.data(), n);
+    OdeState dz(n_z), ahead(n_z);
+    derivative(pd, z.data(), dz.data());
+    const double dt = 1e-9 * period_s;  // directional difference for the rate of g
+    for (int k = 0; k < n_z; ++k) ahead[k] = z[k] + dt * dz[k];
+    load_currents(pd, ahead.data(), n_ahead);
+    int worst = -1;
+    double worst_value = 0.0;
+    for (std::size_t d = 0; d < diode_bits.size(); ++d) {
+      const bool on = (pattern >> diode_bits[d]) & 1u;
+      const double tol = tolerance_for(on ? SignalQuantity::kCurrent : SignalQuantity::kVoltage);
+      const int r = static_cast<int>(d);
+      const double g = row_value(pd.events, pd.events_n, r, z.data(), n);
+      const double rate = (row_value(pd.events, pd.events_n, r, ahead.data(), n_ahead) - g) / dt;
+      const bool decreasing = g <= tol && rate < 0;
+      const double measure = std::min(g, 0.0) / tol - (decreasing ? 1.0 : 0.0);
+      if ((g < -tol || decreasing) && measure < worst_value) {
+        worst_value = measure;
+        worst = r;
+      }
+    }
+    return worst;
+  }
+
+  // The piece handed to observers on the ODE path: evaluates the dense output.
+  class DensePiece final : public PieceView {
+   public:
+    Impl* impl = nullptr;
+    const DenseStepper* stepper = nullptr;
+    double t0 = 0, t1 = 0;
+    double t_begin() const override { return t0; }
+    double t_end() const override { return t1; }
+    DevicePattern pattern() const override { return impl->pattern; }
+    void recorded_values_at(double t, std::span<double> out) const override {
+      OdeState zt(impl->n_z);
+      const_cast<DenseStepper*>(stepper)->calc_state(std::clamp(t, t0, t1), zt);
+      Eigen::VectorXd n(impl->n_n);
+      impl->load_currents(*impl->current, zt.data(), n);
+      for (std::size_t j = 0; j < out.size(); ++j)
+        out[j] = impl->row_value(impl->current->recorded, impl->current->recorded_n,
+                                 static_cast<int>(j), zt.data(), n);
+    }
+  };
+
+  // 5-point Gauss-Legendre quadrature on [a, b] of the recorded signals, energies and peaks.
+  void accumulate_dense(DenseStepper& stepper, double a, double b) {
+    static constexpr double kNode[5] = {-0.9061798459386640, -0.5384693101056831, 0.0,
+                                        0.5384693101056831, 0.9061798459386640};
+    static constexpr double kWeight[5] = {0.2369268850561891, 0.4786286704993665,
+                                          0.5688888888888889, 0.4786286704993665,
+                                          0.2369268850561891};
+    const PatternData& pd = *current;
+    const double half = 0.5 * (b - a), mid = 0.5 * (a + b);
+    OdeState zt(n_z);
+    Eigen::VectorXd n(n_n);
+    auto extremes = [&](const double* zp) {
+      load_currents(pd, zp, n);
+      for (std::size_t j = 0; j < recorded.size(); ++j) {
+        const double y = row_value(pd.recorded, pd.recorded_n, static_cast<int>(j), zp, n);
+        cycle.min[j] = std::min(cycle.min[j], y);
+        cycle.max[j] = std::max(cycle.max[j], y);
+      }
+      for (std::size_t k = 0; k < inductor_states.size(); ++k) {
+        double& best = summary.startup.peak_inductor_current_a[k];
+        best = std::max(best, std::abs(zp[inductor_states[k]]));
+      }
+    };
+    for (double t_end : {a, b}) {
+      stepper.calc_state(t_end, zt);
+      extremes(zt.data());
+    }
+    for (int q = 0; q < 5; ++q) {
+      stepper.calc_state(mid + half * kNode[q], zt);
+      extremes(zt.data());
+      const double w = half * kWeight[q];
+      for (std::size_t j = 0; j < recorded.size(); ++j) {
+        const double y = row_value(pd.recorded, pd.recorded_n, static_cast<int>(j), zt.data(), n);
+        cycle.integral[j] += w * y;
+        cycle.square_integral[j] += w * y * y;
+      }
+      if (!options.energy_accounting) continue;
+      for (std::size_t k = 0; k < energy_elements.size(); ++k) {
+        const int r = 2 * static_cast<int>(k);
+        const double v = row_value(pd.energy, pd.energy_n, r, zt.data(), n);
+        const double i = row_value(pd.energy, pd.energy_n, r + 1, zt.data(), n);
+        const EnergyTerm& term = energy_elements[k].second;
+        if (term.role == EnergyRole::kSource) cycle.energy_in += w * v * i;
+        else if (term.role == EnergyRole::kDissipativeVi) cycle.dissipated += w * v * i;
+        else cycle.dissipated += w * term.resistance_ohm * i * i;
+      }
+    }
+  }
+
+  double event_at(DenseStepper& stepper, int d, double t_at) {
+    OdeState zt(n_z);
+    stepper.calc_state(t_at, zt);
+    Eigen::VectorXd n(n_n);
+    load_currents(*current, zt.data(), n);
+    return row_value(current->events, current->events_n, d, zt.data(), n);
+  }
+
+  // First down-crossing of any device condition in [a, b] on the dense output: four sub-samples
+  // per step catch a double crossing inside the step, then Illinois regula falsi refines it.
+  std::pair<double, int> find_dense_event(DenseStepper& stepper, double a, double b) {
+    const double resolution = 1e-10 * period_s;
+    double best = kInf;
+    int which = -1;
+    for (std::size_t d = 0; d < diode_bits.size(); ++d) {
+      const int r = static_cast<int>(d);
+      const bool on = (pattern >> diode_bits[d]) & 1u;
+      const double noise = tolerance_for(on ? SignalQuantity::kCurrent : SignalQuantity::kVoltage);
+      double lo = a, g_lo = event_at(stepper, r, a);
+      for (int k = 1; k <= 4 && lo < best; ++k) {
+        const double hi = a + (b - a) * k / 4;
+        const double g_hi = event_at(stepper, r, hi);
+        if (g_hi < -noise && g_lo >= 0) {
+          best = std::min(best, illinois(stepper, r, lo, g_lo, hi, g_hi, resolution));
+          which = best == kInf ? which : r;
+          break;
+        }
+        if (g_hi < -noise && g_lo < 0) {  // violated from the start (within noise)
+          best = std::min(best, lo);
+          which = r;
+          break;
+        }
+        lo = hi;
+        g_lo = g_hi;
+      }
+    }
+    return {which >= 0 ? best : -1.0, which};
+  }
+
+  double illinois(DenseStepper& stepper, int d, double a, double ga, double b, double gb,
+                  double resolution) {
+    int side = 0;
+    for (int iter = 0; iter < 200 && b - a > resolution; ++iter) {
+      const double c = (a * gb - b * ga) / (gb - ga);
+      const double gc = event_at(stepper, d, c);
+      if (gc == 0.0) return c;
+      if ((gc < 0) == (gb < 0)) {
+        b = c, gb = gc;
+        if (side == -1) ga *= 0.5;
+        side = -1;
+      } else {
+        a = c, ga = gc;
+        if (side == 1) gb *= 0.5;
+        side = 1;
+      }
+    }
+    return b;  // the first instant known to be past the crossing
+  }
+
+  bool advance_until_ode(double t_target) {
+    const double resolution = options.event_time_tolerance * period_s;
+    auto system = [this](const OdeState& zz, OdeState& dz, double) {
+      derivative(*current, zz.data(), dz.data());
+    };
+    DenseStepper stepper = boost::numeric::odeint::make_dense_output(
+        options.ode_absolute_tolerance, options.ode_relative_tolerance, Dopri());
+    OdeState zv(z.data(), z.data() + n_z);
+    double dt = std::min(t_target - t, period_s / 50);
+    stepper.initialize(zv, t, dt);
+    while (t_target - t > resolution) {
+      if (cycle.events > options.max_events_per_period)
+        return fail(RunEnd::kChattering, "more than " +
+                                             std::to_string(options.max_events_per_period) +
+                                             " events in one period near t = " +
+                                             std::to_string(t) + " s");
+      if (stepper.current_time() + stepper.current_time_step() > t_target) {
+        const OdeState here = stepper.current_state();
+        stepper.initialize(here, stepper.current_time(), t_target - stepper.current_time());
+      }
+      const auto [a, b_raw] = stepper.do_step(system);
+      const double b = std::min(b_raw, t_target);
+      const auto [t_event, which] = find_dense_event(stepper, a, b);
+      const double end = which >= 0 ? t_event : b;
+      accumulate_dense(stepper, a, end);
+      record_interval(end - a);
+      if (observer) {
+        DensePiece view;
+        view.impl = this;
+        view.stepper = &stepper;
+        view.t0 = a;
+        view.t1 = end;
+        observer->on_piece(view);
+      }
+      OdeState z_end(n_z);
+      stepper.calc_state(end, z_end);
+      for (int k = 0; k < n_z; ++k) z[k] = z_end[k];
+      t = (which < 0 && t_target - end <= resolution) ? t_target : end;
+      if (which >= 0) {
+        if (!state_event(which)) return false;
+        stepper.initialize(z_end, t, std::max(stepper.current_time_step(), resolution));
+      }
+    }
+    t = t_target;
+    return true;
+  }
+
+  void record_interval(double h) {
+    if (!cycle.intervals.empty() && cycle.intervals.back().pattern == pattern)
+      cycle.intervals.back().fraction += h / period_s;
+    else
+      cycle.intervals.push_back({pattern, h / period_s});
+    if (in_idle) cycle.idle_time += h;
+  }
+
   // Advance from t to t_target, handling every device event in between.
   bool advance_until(double t_target) {
+    if (nonlinear) return advance_until_ode(t_target);
     const double time_resolution = options.event_time_tolerance * period_s;
     const double nominal = period_s / options.substeps_per_period;
     while (t_target - t > time_resolution) {
@@ -606,7 +935,11 @@ struct Simulation::Impl {
     double w = 0.0;
     for (int s = 0; s < n_x; ++s) {
       const Element& e = model.circuit().elements()[model.state_elements()[s]];
-      w += 0.5 * e.value * z[s] * z[s];
+      if (e.is_saturating())
+        w += detail::SaturationCurve{e.value, e.saturated_inductance_h, e.saturation_current_a}
+                 .stored_energy(z[s]);
+      else
+        w += 0.5 * e.value * z[s] * z[s];
     }
     return w;
   }

@@ -107,6 +107,16 @@ void check_values(const Element& e) {
     case ElementKind::kInductor:
       require_positive(e, e.value, "inductance", "H");
       require_non_negative(e, e.series_resistance_ohm, "winding resistance", "ohm");
+      require_non_negative(e, e.saturation_current_a, "saturation current", "A");
+      if (e.saturation_current_a > 0 &&
+          !(e.saturated_inductance_h > 0 && e.saturated_inductance_h < e.value))
+        fail(ErrorKind::kInvalidValue, e,
+             "saturated inductance must be positive and below the unsaturated inductance",
+             "give a saturated inductance between 0 and " + std::to_string(e.value) + " H");
+      break;
+    case ElementKind::kConstantPowerLoad:
+      require_positive(e, e.power_w, "power", "W");
+      require_positive(e, e.cut_in_voltage_v, "cut-in voltage", "V");
       break;
     case ElementKind::kCapacitor:
       require_positive(e, e.value, "capacitance", "F");
@@ -264,7 +274,8 @@ void check_current_cutsets(const Circuit& c, const NodeGraph& graph) {
   UnionFind uf(graph.ground() + 1);
   for (std::size_t k = 0; k < c.elements().size(); ++k) {
     const auto kind = c.elements()[k].kind;
-    if (kind != ElementKind::kInductor && kind != ElementKind::kCurrentSource)
+    if (kind != ElementKind::kInductor && kind != ElementKind::kCurrentSource &&
+        kind != ElementKind::kConstantPowerLoad)
       uf.unite(graph.node_a[k], graph.node_b[k]);
   }
   const int ground = uf.find(graph.ground());

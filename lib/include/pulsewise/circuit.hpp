@@ -30,13 +30,29 @@ enum class ElementKind {
   kCurrentSource,
   kSwitch,
   kDiode,
+  kConstantPowerLoad,  // nonlinear: i = P / v above its cut-in voltage (simulated on the ODE path)
 };
 
 const char* to_string(ElementKind kind);
 
+// A saturating inductor (saturation_current_a > 0) follows the flux-linkage curve
+//   psi(i) = L_sat i + (L_0 - L_sat) I_sat tanh(i / I_sat),
+// so its differential inductance L_d(i) = L_sat + (L_0 - L_sat) / cosh^2(i / I_sat) falls smoothly
+// from the unsaturated value L_0 (the element's inductance) at small current to L_sat well above
+// I_sat. A smooth single-knee fit of a ferrite or powder-core B-H curve (common practice, no
+// source); see docs/method.md. Circuits with one are simulated on the ODE path.
 struct InductorOptions {
   double winding_resistance_ohm = 0.0;  // series DCR, ohm, >= 0
   double initial_current_a = 0.0;       // current at t = 0, A (node_a -> node_b)
+  double saturation_current_a = 0.0;    // I_sat, A; 0 (the default) means a linear inductor
+  double saturated_inductance_h = 0.0;  // L_sat, H, 0 < L_sat < L_0 when saturating
+};
+
+// A constant-power load (a downstream converter): draws i = P / v from node_a to node_b when
+// v >= cut-in voltage, and behaves as the resistor v_cut^2 / P below it (continuous at v_cut, and
+// finite at start-up from zero voltage). Circuits with one are simulated on the ODE path.
+struct ConstantPowerOptions {
+  double cut_in_voltage_v = 1.0;  // V, > 0
 };
 
 struct CapacitorOptions {
@@ -69,9 +85,15 @@ struct Element {
   double off_resistance_ohm = kOpen;   // devices
   double forward_voltage_v = 0.0;      // diodes
   std::string gate;                    // switches: the gate signal that drives them
+  double saturation_current_a = 0.0;   // saturating inductor: I_sat (0: linear)
+  double saturated_inductance_h = 0.0;  // saturating inductor: L_sat
+  double power_w = 0.0;                // constant-power load: P, W
+  double cut_in_voltage_v = 0.0;       // constant-power load: below it the load is resistive
   SourceLocation where;                // where it was defined, when it came from a file
 
   bool is_device() const { return kind == ElementKind::kSwitch || kind == ElementKind::kDiode; }
+  bool is_saturating() const { return kind == ElementKind::kInductor && saturation_current_a > 0; }
+  bool is_nonlinear() const { return is_saturating() || kind == ElementKind::kConstantPowerLoad; }
 };
 
 class Circuit {
@@ -95,6 +117,9 @@ class Circuit {
                       SwitchOptions options = {}, SourceLocation where = {});
   Circuit& add_diode(std::string name, std::string anode, std::string cathode,
                      DiodeOptions options = {}, SourceLocation where = {});
+  Circuit& add_constant_power_load(std::string name, std::string node_a, std::string node_b,
+                                   double power_w, ConstantPowerOptions options = {},
+                                   SourceLocation where = {});
 
   Circuit& add_modulator(PwmModulator modulator);
   Circuit& add_modulator(ComplementaryPwm modulator);
@@ -108,6 +133,8 @@ class Circuit {
 
   // Index of the element with this name, or -1.
   int find_element(const std::string& name) const;
+  // True when some element is nonlinear between events (the run uses the ODE path).
+  bool has_nonlinear_elements() const;
   // The switching period of the first modulator (PWM or complementary), or 0 when there is none.
   double first_modulator_period_s() const;
 

@@ -1,11 +1,13 @@
 // The linear model of one device configuration. While no device changes state the circuit is
 // linear; for a device on/off pattern, modified nodal analysis (capacitors as voltage sources,
 // inductors as current sources) gives
-//     dx/dt = A x + B u,    y = C x + D u
+//     dx/dt = A x + B u + E n,    y = C x + D u + F n
 // x: inductor currents then capacitor voltages (element order);
 // u: every independent source value (element order) followed by the constant 1, which carries
 //    diode forward drops;
-// y: every signal of the circuit, see CircuitModel::signals().
+// y: every signal of the circuit, see CircuitModel::signals();
+// n: the currents of nonlinear current-type elements (constant-power loads), each a function of
+//    its own terminal voltage; E and F have no columns in a linear circuit.
 //
 // Ideal open devices are handled exactly: a group of nodes that the open devices leave joined to
 // the rest only through inductors and current sources gets its potential from the condition that
@@ -55,7 +57,7 @@ class ConfigurationModel {
   bool valid = false;      // false: the configuration closes a loop of zero-resistance branches
   std::string problem;     // why it is not valid
   std::vector<int> loop_elements;  // element indices of that loop
-  Eigen::MatrixXd A, B, C, D;
+  Eigen::MatrixXd A, B, C, D, E, F;
   std::vector<FloatingGroup> floating_groups;
 };
 
@@ -73,6 +75,8 @@ class CircuitModel {
   const std::vector<int>& state_elements() const { return state_elements_; }
   // Element index of each source input; the last input (the constant 1) has none.
   const std::vector<int>& input_elements() const { return input_elements_; }
+  // Element index of each nonlinear current (constant-power load), in the order of n.
+  const std::vector<int>& nonlinear_elements() const { return nonlinear_elements_; }
   // Element index of each device, in bit order of DevicePattern.
   const std::vector<int>& devices() const { return devices_; }
   const std::vector<SignalInfo>& signals() const { return signals_; }
@@ -101,8 +105,8 @@ class CircuitModel {
   Circuit circuit_;
   std::vector<std::string> node_names_;  // non-ground nodes
   std::vector<int> node_a_, node_b_;     // per element: node index, -1 for ground
-  std::vector<int> state_elements_, input_elements_, devices_;
-  std::vector<int> state_of_element_, input_of_element_, device_of_element_;
+  std::vector<int> state_elements_, input_elements_, devices_, nonlinear_elements_;
+  std::vector<int> state_of_element_, input_of_element_, device_of_element_, nonlinear_of_element_;
   std::vector<SignalInfo> signals_;
   std::vector<int> element_signal_;
   std::map<std::string, int> signal_index_;

@@ -57,6 +57,12 @@ struct SimulationOptions {
   bool cache = true;
   // Per-cycle energy from sources, change in stored energy and energy dissipated.
   bool energy_accounting = true;
+  // ODE path (circuits with saturating inductors or constant-power loads): error tolerances of
+  // the Dormand-Prince 5(4) integrator, relative and absolute (in the states' own units).
+  double ode_relative_tolerance = 1e-10;
+  double ode_absolute_tolerance = 1e-12;
+  // Use the ODE path even for a linear circuit (to check it against the exact path).
+  bool force_ode_path = false;
 
   // Throws InputError (kInvalidOption) naming the option and the fix.
   void validate() const;

@@ -23,6 +23,9 @@ struct PatternData {
   Eigen::MatrixXd events;    // rows: device conditions g >= 0 (one per diode)
   Eigen::MatrixXd energy;    // rows: (v, i) of each element taking part in the energy balance
   double max_step_s = 0.0;   // sub-step bound from ||M||_1
+  // ODE path: the nonlinear currents n enter as dz/dt += E n, y += F n, g += events_n n.
+  Eigen::MatrixXd E, recorded_n, events_n, energy_n;
+  Eigen::MatrixXd load_voltage_z, load_voltage_n;  // load voltages = Vz z + Vn n
 };
 
 enum class EnergyRole { kSource, kDissipativeVi, kSeriesResistance };
