@@ -13,7 +13,9 @@ using namespace pulsewise;
 constexpr double kEps = std::numeric_limits<double>::epsilon();
 
 // Relative difference scaled by the larger magnitude (or 1 for values near zero).
-double rel(double a, double b) { return std::abs(a - b) / std::max({std::abs(a), std::abs(b), 1.0}); }
+double rel(double a, double b) {
+  return std::abs(a - b) / std::max({std::abs(a), std::abs(b), 1.0});
+}
 
 TEST(ConfigurationModel, SeriesRlcMatchesKirchhoffVoltageLaw) {
   // V - R - L - C to ground: L di/dt = V - R i - v_C, C dv_C/dt = i (KVL and the element laws;
@@ -66,8 +68,8 @@ TEST(ConfigurationModel, OpenDevicesFreezeTheInductorCurrentExactly) {
   EXPECT_EQ(cfg.A.row(0).cwiseAbs().maxCoeff(), 0.0);
   EXPECT_EQ(cfg.B.row(0).cwiseAbs().maxCoeff(), 0.0);
   const int v_sw = model.find_signal("sw.v");
-  EXPECT_LT(rel(cfg.D(v_sw, 0), 1.0), 8 * kEps);       // + Vin
-  EXPECT_LT(rel(cfg.C(v_sw, 0), -0.05), 8 * kEps);     // - R_L i_L
+  EXPECT_LT(rel(cfg.D(v_sw, 0), 1.0), 8 * kEps);    // + Vin
+  EXPECT_LT(rel(cfg.C(v_sw, 0), -0.05), 8 * kEps);  // - R_L i_L
   // The diode sees v(sw) - v(out): its reverse voltage is defined, not arbitrary.
   const int v_d = model.find_signal("D1.v");
   EXPECT_LT(rel(cfg.C(v_d, 1), -1.0), 8 * kEps);

@@ -79,10 +79,10 @@ TEST(Modulator, ComplementaryPairLeavesBothOffDuringEachDeadTime) {
   m.dead_time_s = 0.05 * kT;
   c.add_modulator(m);
   GateBank bank(c, devices_of(c), 1e-12 * kT);
-  EXPECT_EQ(bank.switch_pattern(0.2 * kT), 0b01u);   // high on
-  EXPECT_EQ(bank.switch_pattern(0.42 * kT), 0u);     // first dead time
-  EXPECT_EQ(bank.switch_pattern(0.7 * kT), 0b10u);   // low on
-  EXPECT_EQ(bank.switch_pattern(0.97 * kT), 0u);     // second dead time
+  EXPECT_EQ(bank.switch_pattern(0.2 * kT), 0b01u);  // high on
+  EXPECT_EQ(bank.switch_pattern(0.42 * kT), 0u);    // first dead time
+  EXPECT_EQ(bank.switch_pattern(0.7 * kT), 0b10u);  // low on
+  EXPECT_EQ(bank.switch_pattern(0.97 * kT), 0u);    // second dead time
   const auto e = edges(bank, kT * 1.01);
   ASSERT_EQ(e.size(), 4u);
   EXPECT_NEAR(e[0], 0.40 * kT, 1e-15 * kT);

@@ -95,10 +95,21 @@ TEST(OdePath, SaturationRaisesThePeakCurrentAboveTheLinearInductor) {
       continue;
     }
     switch (e.kind) {
-      case ElementKind::kVoltageSource: saturating.add_voltage_source(e.name, e.node_a, e.node_b, e.waveform); break;
-      case ElementKind::kSwitch: saturating.add_switch(e.name, e.node_a, e.node_b, e.gate, {e.on_resistance_ohm, e.off_resistance_ohm}); break;
-      case ElementKind::kDiode: saturating.add_diode(e.name, e.node_a, e.node_b, {e.on_resistance_ohm, e.forward_voltage_v, e.off_resistance_ohm}); break;
-      case ElementKind::kCapacitor: saturating.add_capacitor(e.name, e.node_a, e.node_b, e.value, {e.series_resistance_ohm, e.initial_value}); break;
+      case ElementKind::kVoltageSource:
+        saturating.add_voltage_source(e.name, e.node_a, e.node_b, e.waveform);
+        break;
+      case ElementKind::kSwitch:
+        saturating.add_switch(e.name, e.node_a, e.node_b, e.gate,
+                              {e.on_resistance_ohm, e.off_resistance_ohm});
+        break;
+      case ElementKind::kDiode:
+        saturating.add_diode(e.name, e.node_a, e.node_b,
+                             {e.on_resistance_ohm, e.forward_voltage_v, e.off_resistance_ohm});
+        break;
+      case ElementKind::kCapacitor:
+        saturating.add_capacitor(e.name, e.node_a, e.node_b, e.value,
+                                 {e.series_resistance_ohm, e.initial_value});
+        break;
       default: saturating.add_resistor(e.name, e.node_a, e.node_b, e.value); break;
     }
   }
@@ -144,15 +155,15 @@ TEST(OdePath, ConverterWithAConstantPowerLoadDeliversThatPower) {
   const double p_loss_other = s.last_cycle.dissipated_j / T - P;
   std::cout << "input power " << p_in << " W, load " << P << " W, other losses " << p_loss_other
             << " W\n";
-  EXPECT_LT(s.last_cycle.state_change, 1e-6);                // it has settled
+  EXPECT_LT(s.last_cycle.state_change, 1e-6);               // it has settled
   EXPECT_NEAR(s.last_cycle.signals[0].average, 12.0, 0.2);  // V_out ~ D Vin for a buck
   // The load's own average power: average of v * i over the period equals P.
   EXPECT_NEAR(s.last_cycle.signals[1].average * s.last_cycle.signals[2].average, P, 1e-3 * P);
   EXPECT_GT(p_loss_other, 0.0);
   EXPECT_LT(p_loss_other, 0.01 * P);  // milliohm switches, 0.2 ohm ESR with ~0.4 A rms ripple
   // Energy balance over the last period: in = stored change + dissipated (integration tolerance).
-  const double balance = s.last_cycle.energy_in_j - s.last_cycle.stored_energy_change_j -
-                         s.last_cycle.dissipated_j;
+  const double balance =
+      s.last_cycle.energy_in_j - s.last_cycle.stored_energy_change_j - s.last_cycle.dissipated_j;
   EXPECT_LT(std::abs(balance) / s.last_cycle.energy_in_j, 1e-6);
   EXPECT_NEAR(p_in, P + p_loss_other, 1e-3 * P);
 }

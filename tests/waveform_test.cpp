@@ -67,8 +67,9 @@ TEST(Waveform, SineSourceDrivesAnRcFilterExactly) {
   LastValue last;
   ASSERT_TRUE(sim.run(&last).ok());
   const double tau = R * C, t = last.t;
-  const double expected = A / (1 + w * w * tau * tau) *
-                          (std::sin(w * t) - w * tau * std::cos(w * t) + w * tau * std::exp(-t / tau));
+  const double expected =
+      A / (1 + w * w * tau * tau) *
+      (std::sin(w * t) - w * tau * std::cos(w * t) + w * tau * std::exp(-t / tau));
   // 137 periods of rounding in a well-conditioned recurrence: 1e-12 of the amplitude.
   EXPECT_NEAR(last.value, expected, 1e-12 * A) << "t = " << t;
 }

@@ -41,8 +41,7 @@ Circuit& Circuit::add_resistor(std::string name, std::string node_a, std::string
 }
 
 Circuit& Circuit::add_inductor(std::string name, std::string node_a, std::string node_b,
-                               double inductance_h, InductorOptions options,
-                               SourceLocation where) {
+                               double inductance_h, InductorOptions options, SourceLocation where) {
   Element e = make_element(ElementKind::kInductor, std::move(name), std::move(node_a),
                            std::move(node_b), std::move(where));
   e.value = inductance_h;
@@ -106,9 +105,9 @@ Circuit& Circuit::add_diode(std::string name, std::string anode, std::string cat
   return *this;
 }
 
-Circuit& Circuit::add_constant_power_load(std::string name, std::string node_a,
-                                          std::string node_b, double power_w,
-                                          ConstantPowerOptions options, SourceLocation where) {
+Circuit& Circuit::add_constant_power_load(std::string name, std::string node_a, std::string node_b,
+                                          double power_w, ConstantPowerOptions options,
+                                          SourceLocation where) {
   Element e = make_element(ElementKind::kConstantPowerLoad, std::move(name), std::move(node_a),
                            std::move(node_b), std::move(where));
   e.power_w = power_w;

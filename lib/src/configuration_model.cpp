@@ -95,7 +95,8 @@ bool is_conductive(const BranchPlan& p) {
 }
 
 // A loop of zero-resistance voltage branches makes the nodal system singular; name it.
-std::vector<int> find_zero_resistance_loop(const NodeGraph& g, const std::vector<BranchPlan>& plan) {
+std::vector<int> find_zero_resistance_loop(const NodeGraph& g,
+                                           const std::vector<BranchPlan>& plan) {
   UnionFind uf(g.ground() + 1);
   std::vector<int> forest;
   for (std::size_t k = 0; k < plan.size(); ++k) {
@@ -199,7 +200,8 @@ const ConfigurationModel& CircuitModel::configuration(DevicePattern pattern) {
     return *it->second;
   }
   ++built_;
-  auto [pos, inserted] = cache_.emplace(pattern, std::make_unique<ConfigurationModel>(build(pattern)));
+  auto [pos, inserted] =
+      cache_.emplace(pattern, std::make_unique<ConfigurationModel>(build(pattern)));
   return *pos->second;
 }
 
@@ -228,8 +230,15 @@ class ConfigurationBuilder {
                        const std::vector<int>& input_of, const std::vector<int>& device_of,
                        const std::vector<int>& nonlinear_of, std::size_t n_states,
                        std::size_t n_inputs, std::size_t n_nonlinear)
-      : c_(c), g_(g), state_of_(state_of), input_of_(input_of), device_of_(device_of),
-        nonlinear_of_(nonlinear_of), n_x_(n_states), n_u_(n_inputs), n_n_(n_nonlinear) {}
+      : c_(c),
+        g_(g),
+        state_of_(state_of),
+        input_of_(input_of),
+        device_of_(device_of),
+        nonlinear_of_(nonlinear_of),
+        n_x_(n_states),
+        n_u_(n_inputs),
+        n_n_(n_nonlinear) {}
 
   ConfigurationModel build(DevicePattern pattern, const std::vector<SignalInfo>& signals);
 
@@ -321,7 +330,8 @@ void ConfigurationBuilder::find_groups(ConfigurationModel& model, std::vector<in
   for (int node = 0; node < n_nodes_; ++node) {
     const int root = uf.find(node);
     if (root == ground_root) continue;
-    auto [it, inserted] = group_of_root.try_emplace(root, static_cast<int>(model.floating_groups.size()));
+    auto [it, inserted] =
+        group_of_root.try_emplace(root, static_cast<int>(model.floating_groups.size()));
     if (inserted) model.floating_groups.emplace_back();
     group_of_node[node] = it->second;
     model.floating_groups[it->second].nodes.push_back(g_.names[node]);

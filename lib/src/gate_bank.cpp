@@ -19,8 +19,8 @@ GateBank::GateBank(const Circuit& circuit, const std::vector<int>& devices,
   for (const auto& m : circuit.complementary_modulators()) {
     for (Kind kind : {Kind::kHigh, Kind::kLow})
       gates_.push_back({m.name + (kind == Kind::kHigh ? ".high" : ".low"), kind,
-                        1.0 / m.frequency_hz, m.duty_cycle, m.phase, m.dead_time_s,
-                        m.soft_start, nullptr});
+                        1.0 / m.frequency_hz, m.duty_cycle, m.phase, m.dead_time_s, m.soft_start,
+                        nullptr});
   }
   for (const auto& s : circuit.gate_schedules())
     gates_.push_back({s.name, Kind::kSchedule, 0, 0, 0, 0, {}, &s});

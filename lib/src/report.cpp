@@ -57,7 +57,8 @@ void require(bool ok, const char* option, const char* problem, const char* fix) 
 
 void SimulationOptions::validate() const {
   require(std::isfinite(switching_period_s) && switching_period_s >= 0, "switching_period_s",
-          "must be finite and not negative", "give the period in seconds, or 0 for the modulator's");
+          "must be finite and not negative",
+          "give the period in seconds, or 0 for the modulator's");
   require(periods > 0, "periods", "must be positive", "ask for at least one period");
   require(substeps_per_period >= 1 && substeps_per_period <= 100000, "substeps_per_period",
           "must be between 1 and 100000", "use the default 1 unless checking invariance");
@@ -91,16 +92,15 @@ void RecordingOptions::validate() const {
   require(flush_every_periods >= 1, "flush_every_periods", "must be at least 1",
           "flush for example every 1000 periods");
   for (const auto& w : windows)
-    require(std::isfinite(w.start_s) && std::isfinite(w.end_s) && w.start_s >= 0 &&
-                w.end_s > w.start_s,
-            "windows", "each window needs 0 <= start < end", "give windows as [start, end] in s");
+    require(
+        std::isfinite(w.start_s) && std::isfinite(w.end_s) && w.start_s >= 0 && w.end_s > w.start_s,
+        "windows", "each window needs 0 <= start < end", "give windows as [start, end] in s");
 }
 
 std::string RunSummary::brief_report() const {
   std::ostringstream out;
-  out << "run: " << to_string(end) << " (" << message << "), " << cycles << " periods, "
-      << events << " events, " << configurations_built << " configurations built, "
-      << wall_time_s << " s\n";
+  out << "run: " << to_string(end) << " (" << message << "), " << cycles << " periods, " << events
+      << " events, " << configurations_built << " configurations built, " << wall_time_s << " s\n";
   out << "last period: mode " << to_string(last_cycle.mode);
   for (std::size_t k = 0; k < last_cycle.intervals.size() && k < 3; ++k)
     out << ", D" << k + 1 << " = " << last_cycle.intervals[k].fraction;

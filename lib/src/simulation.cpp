@@ -86,11 +86,11 @@ struct Simulation::Impl {
   // Slope slot r holds du/dt / ramp_scale[r]: 1 for tables, w for sinusoids (keeps ||M|| ~ w).
   std::vector<double> ramp_scale, ramp_offset;
   std::vector<bool> ramp_oscillates;
-  std::vector<int> recorded;     // signal indices
-  std::vector<int> diode_bits;   // device bits of the diodes (one event row each)
+  std::vector<int> recorded;    // signal indices
+  std::vector<int> diode_bits;  // device bits of the diodes (one event row each)
   std::vector<int> inductor_states;
   std::vector<std::pair<int, EnergyTerm>> energy_elements;  // element index, role
-  int output_recorded = -1;      // index into recorded
+  int output_recorded = -1;                                 // index into recorded
   std::map<DevicePattern, PatternData> patterns;
   // ODE path.
   bool nonlinear = false;
@@ -184,10 +184,9 @@ struct Simulation::Impl {
       for (const auto& s : model.signals()) {
         const bool node = s.element < 0;
         const Element* e = node ? nullptr : &model.circuit().elements()[s.element];
-        const bool state = e && ((e->kind == ElementKind::kInductor &&
-                                  s.quantity == SignalQuantity::kCurrent) ||
-                                 (e->kind == ElementKind::kCapacitor &&
-                                  s.quantity == SignalQuantity::kVoltage));
+        const bool state =
+            e && ((e->kind == ElementKind::kInductor && s.quantity == SignalQuantity::kCurrent) ||
+                  (e->kind == ElementKind::kCapacitor && s.quantity == SignalQuantity::kVoltage));
         if (node || state) names.push_back(s.name);
       }
     }
@@ -258,7 +257,8 @@ struct Simulation::Impl {
       }
     }
     pd.recorded.resize(recorded.size(), n_z);
-    for (std::size_t j = 0; j < recorded.size(); ++j) pd.recorded.row(j) = signal_row(cfg, recorded[j]);
+    for (std::size_t j = 0; j < recorded.size(); ++j)
+      pd.recorded.row(j) = signal_row(cfg, recorded[j]);
     pd.events.resize(diode_bits.size(), n_z);
     for (std::size_t d = 0; d < diode_bits.size(); ++d) {
       const int el = model.devices()[diode_bits[d]];
@@ -471,8 +471,8 @@ struct Simulation::Impl {
     }
     return fail(RunEnd::kNoConsistentConfiguration,
                 "no consistent device configuration after " +
-                    std::to_string(options.max_consistency_iterations) + " flips at t = " +
-                    std::to_string(t) + " s");
+                    std::to_string(options.max_consistency_iterations) +
+                    " flips at t = " + std::to_string(t) + " s");
   }
 
   // ---- pieces ------------------------------------------------------------------------------
@@ -588,7 +588,6 @@ struct Simulation::Impl {
     return make_consistent();
   }
 
-
   // ---- ODE path ------------------------------------------------------------------------------
 
   using OdeState = std::vector<double>;
@@ -626,7 +625,8 @@ struct Simulation::Impl {
       load_currents(pd, zp, n);
       out.noalias() += pd.E * n;
     }
-    for (const auto& [state, curve] : saturating) out[state] *= curve.l0 / curve.differential_inductance(zp[state]);
+    for (const auto& [state, curve] : saturating)
+      out[state] *= curve.l0 / curve.differential_inductance(zp[state]);
   }
 
   // Value of a row set (signals, events or energy rows) at state zp, including the loads.
@@ -726,9 +726,12 @@ struct Simulation::Impl {
         const double v = row_value(pd.energy, pd.energy_n, r, zt.data(), n);
         const double i = row_value(pd.energy, pd.energy_n, r + 1, zt.data(), n);
         const EnergyTerm& term = energy_elements[k].second;
-        if (term.role == EnergyRole::kSource) cycle.energy_in += w * v * i;
-        else if (term.role == EnergyRole::kDissipativeVi) cycle.dissipated += w * v * i;
-        else cycle.dissipated += w * term.resistance_ohm * i * i;
+        if (term.role == EnergyRole::kSource)
+          cycle.energy_in += w * v * i;
+        else if (term.role == EnergyRole::kDissipativeVi)
+          cycle.dissipated += w * v * i;
+        else
+          cycle.dissipated += w * term.resistance_ohm * i * i;
       }
     }
   }
@@ -804,10 +807,9 @@ struct Simulation::Impl {
     stepper.initialize(zv, t, dt);
     while (t_target - t > resolution) {
       if (cycle.events > options.max_events_per_period)
-        return fail(RunEnd::kChattering, "more than " +
-                                             std::to_string(options.max_events_per_period) +
-                                             " events in one period near t = " +
-                                             std::to_string(t) + " s");
+        return fail(RunEnd::kChattering,
+                    "more than " + std::to_string(options.max_events_per_period) +
+                        " events in one period near t = " + std::to_string(t) + " s");
       if (stepper.current_time() + stepper.current_time_step() > t_target) {
         const OdeState here = stepper.current_state();
         stepper.initialize(here, stepper.current_time(), t_target - stepper.current_time());
@@ -884,8 +886,8 @@ struct Simulation::Impl {
     model.input_slopes_at(t, du);
     // Sinusoids evolve inside z exactly; only their breakpoints (a rectified sine's zero
     // crossings, where the slope flips) reset them. Everything else is reset when it differs.
-    const bool at_breakpoint = std::abs(next_breakpoint(t - 2e-12 * period_s) - t) <=
-                               2e-12 * period_s;
+    const bool at_breakpoint =
+        std::abs(next_breakpoint(t - 2e-12 * period_s) - t) <= 2e-12 * period_s;
     bool inputs_changed = at_breakpoint;
     for (int k = 0; k < n_u && !inputs_changed; ++k)
       inputs_changed = !is_oscillator_input(k) && u[k] != z[n_x + k];
@@ -957,7 +959,7 @@ struct Simulation::Impl {
     if (diode_bits.empty()) return ConductionMode::kNone;
     if (cycle.natural_turn_off || cycle.idle_time > 0) {
       return cycle.idle_time > options.boundary_tolerance * period_s ? ConductionMode::kDcm
-                                                                      : ConductionMode::kBoundary;
+                                                                     : ConductionMode::kBoundary;
     }
     return ConductionMode::kCcm;
   }
@@ -983,8 +985,8 @@ struct Simulation::Impl {
     for (int s = 0; s < n_x; ++s) {
       const bool inductor =
           model.circuit().elements()[model.state_elements()[s]].kind == ElementKind::kInductor;
-      change = std::max(change, std::abs(z[s] - x_start[s]) /
-                                    (inductor ? current_scale : voltage_scale));
+      change = std::max(change,
+                        std::abs(z[s] - x_start[s]) / (inductor ? current_scale : voltage_scale));
     }
     m.state_change = change;
     return m;
@@ -995,15 +997,16 @@ struct Simulation::Impl {
     summary = RunSummary{};
     for (int index : recorded) summary.recorded.push_back(model.signals()[index]);
     for (int s : inductor_states)
-      summary.startup.inductors.push_back(model.circuit().elements()[model.state_elements()[s]].name);
+      summary.startup.inductors.push_back(
+          model.circuit().elements()[model.state_elements()[s]].name);
     summary.startup.peak_inductor_current_a.assign(inductor_states.size(), 0.0);
     for (int s = 0; s < n_x; ++s) {
       const int el = model.state_elements()[s];
       const bool inductor = model.circuit().elements()[el].kind == ElementKind::kInductor;
-      summary.state_names.push_back(
-          model.signals()[inductor ? model.element_current_signal(el)
-                                   : model.element_voltage_signal(el)]
-              .name);
+      summary.state_names.push_back(model
+                                        .signals()[inductor ? model.element_current_signal(el)
+                                                            : model.element_voltage_signal(el)]
+                                        .name);
     }
     t = 0.0;
     z.setZero();
@@ -1067,7 +1070,8 @@ struct Simulation::Impl {
     for (std::size_t k = 0; k < output_averages.size(); ++k)
       if (std::abs(output_averages[k] - final_value) > options.settling_band * scale)
         settled = static_cast<long>(k) + 1;
-    summary.startup.settling_cycle = settled < static_cast<long>(output_averages.size()) ? settled : -1;
+    summary.startup.settling_cycle =
+        settled < static_cast<long>(output_averages.size()) ? settled : -1;
   }
 
   RunSummary run(Observer* obs) {
@@ -1086,9 +1090,8 @@ struct Simulation::Impl {
     for (long k = 0; ok && k < options.periods; ++k) {
       ok = run_cycle(k);
       if (!ok) break;
-      quiet_periods = summary.last_cycle.state_change < options.steady_state_tolerance
-                          ? quiet_periods + 1
-                          : 0;
+      quiet_periods =
+          summary.last_cycle.state_change < options.steady_state_tolerance ? quiet_periods + 1 : 0;
       if (quiet_periods >= options.steady_state_periods && summary.startup.steady_state_cycle < 0)
         summary.startup.steady_state_cycle = k;
       if (options.stop_at_steady_state && summary.startup.steady_state_cycle >= 0) {
@@ -1126,10 +1129,10 @@ std::string Simulation::describe(DevicePattern pattern) const {
 
 void Simulation::set_initial_state(const Eigen::VectorXd& x0) {
   if (x0.size() != static_cast<Eigen::Index>(impl_->model.state_count()))
-    throw InputError(ErrorKind::kInvalidOption, "",
-                     "initial state has " + std::to_string(x0.size()) + " entries",
-                     "give one value per state (" + std::to_string(impl_->model.state_count()) +
-                         ")");
+    throw InputError(
+        ErrorKind::kInvalidOption, "",
+        "initial state has " + std::to_string(x0.size()) + " entries",
+        "give one value per state (" + std::to_string(impl_->model.state_count()) + ")");
   impl_->x0 = x0;
 }
 

@@ -39,7 +39,8 @@ std::vector<int> forest_path(const NodeGraph& graph, const std::vector<int>& for
   }
   std::vector<int> path;
   if (!reached.count(to)) return path;
-  for (int node = to; node != from; node = reached[node].second) path.push_back(reached[node].first);
+  for (int node = to; node != from; node = reached[node].second)
+    path.push_back(reached[node].first);
   return path;
 }
 
@@ -141,8 +142,8 @@ void check_values(const Element& e) {
     fail(ErrorKind::kInvalidValue, e, "initial condition is not finite", "give a finite number");
 }
 
-void check_modulator_common(const std::string& name, double frequency_hz, double duty,
-                            double phase, const SoftStart& soft, const SourceLocation& where) {
+void check_modulator_common(const std::string& name, double frequency_hz, double duty, double phase,
+                            const SoftStart& soft, const SourceLocation& where) {
   auto bad = [&](const std::string& problem, const std::string& fix) {
     throw InputError(ErrorKind::kInvalidValue, name, problem, fix, where);
   };
@@ -177,8 +178,7 @@ std::set<std::string> check_modulators(const Circuit& c) {
     if (!std::isfinite(m.dead_time_s) || m.dead_time_s < 0 || 2 * m.dead_time_s >= period)
       throw InputError(ErrorKind::kInvalidValue, m.name,
                        "dead time must be at least 0 and shorter than half the period",
-                       "give a dead time well below " + std::to_string(period / 2) + " s",
-                       m.where);
+                       "give a dead time well below " + std::to_string(period / 2) + " s", m.where);
     gates.insert(m.name + ".high");
     gates.insert(m.name + ".low");
   }
@@ -231,18 +231,15 @@ void check_connectivity(const Circuit& c, const NodeGraph& graph) {
       throw InputError(ErrorKind::kFloatingNode, attached[node].front(),
                        "node '" + name + "' has only this one connection",
                        "connect node '" + name + "' to a second element or remove it",
-                       c.elements()[c.find_element(attached[node].front())].where,
-                       attached[node]);
+                       c.elements()[c.find_element(attached[node].front())].where, attached[node]);
     if (all.find(node) != all.find(graph.ground()))
       throw InputError(ErrorKind::kFloatingNode, attached[node].front(),
                        "node '" + name + "' is not connected to ground through any element",
                        "connect this part of the circuit to ground (node '0' or 'gnd')",
-                       c.elements()[c.find_element(attached[node].front())].where,
-                       attached[node]);
+                       c.elements()[c.find_element(attached[node].front())].where, attached[node]);
   }
   if (c.elements().empty())
-    throw InputError(ErrorKind::kFloatingNode, "", "the circuit has no elements",
-                     "add elements");
+    throw InputError(ErrorKind::kFloatingNode, "", "the circuit has no elements", "add elements");
 }
 
 bool is_voltage_type_always(const Element& e) {
@@ -291,8 +288,7 @@ void check_current_cutsets(const Circuit& c, const NodeGraph& graph) {
     fail(ErrorKind::kCurrentCutset, e,
          "forms a cutset of inductors and current sources only: " + quote_list(names) +
              "; their currents are forced equal and no device or resistor can relieve them",
-         "add a resistor, capacitor or device across the cutset, or merge series inductors",
-         names);
+         "add a resistor, capacitor or device across the cutset, or merge series inductors", names);
   }
 }
 

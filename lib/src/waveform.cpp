@@ -99,7 +99,8 @@ double Waveform::slope(double t) const {
   const double w = angular_frequency();
   const double angle = w * t + phase_rad_;
   if (kind_ == Kind::kSine) return amplitude_ * w * std::cos(angle);
-  if (kind_ == Kind::kRectifiedSine) return sign_just_after(angle) * amplitude_ * w * std::cos(angle);
+  if (kind_ == Kind::kRectifiedSine)
+    return sign_just_after(angle) * amplitude_ * w * std::cos(angle);
   if (kind_ != Kind::kPiecewiseLinear) return 0.0;
   const int k = segment_index(points_, t);
   if (k < 0 || k + 1 >= static_cast<int>(points_.size())) return 0.0;

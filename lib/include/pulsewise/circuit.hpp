@@ -61,13 +61,13 @@ struct CapacitorOptions {
 };
 
 struct SwitchOptions {
-  double on_resistance_ohm = 0.0;    // ohm, >= 0 (0 only where it closes no voltage loop)
+  double on_resistance_ohm = 0.0;     // ohm, >= 0 (0 only where it closes no voltage loop)
   double off_resistance_ohm = kOpen;  // ohm, > 0; kOpen (the default) is an exact open circuit
 };
 
 struct DiodeOptions {
-  double on_resistance_ohm = 0.0;    // ohm, >= 0
-  double forward_voltage_v = 0.0;    // forward drop, V, >= 0
+  double on_resistance_ohm = 0.0;     // ohm, >= 0
+  double forward_voltage_v = 0.0;     // forward drop, V, >= 0
   double off_resistance_ohm = kOpen;  // ohm, > 0; kOpen (the default) is an exact open circuit
 };
 
@@ -75,9 +75,9 @@ struct DiodeOptions {
 struct Element {
   ElementKind kind = ElementKind::kResistor;
   std::string name;
-  std::string node_a;  // positive terminal, anode, plus
-  std::string node_b;  // negative terminal, cathode, minus
-  double value = 0.0;  // resistance ohm, inductance H, capacitance F (R, L, C only)
+  std::string node_a;                  // positive terminal, anode, plus
+  std::string node_b;                  // negative terminal, cathode, minus
+  double value = 0.0;                  // resistance ohm, inductance H, capacitance F (R, L, C only)
   double series_resistance_ohm = 0.0;  // inductor DCR or capacitor ESR
   double initial_value = 0.0;          // inductor current A or capacitor voltage V at t = 0
   Waveform waveform;                   // sources: V or A
@@ -87,9 +87,9 @@ struct Element {
   std::string gate;                    // switches: the gate signal that drives them
   double saturation_current_a = 0.0;   // saturating inductor: I_sat (0: linear)
   double saturated_inductance_h = 0.0;  // saturating inductor: L_sat
-  double power_w = 0.0;                // constant-power load: P, W
-  double cut_in_voltage_v = 0.0;       // constant-power load: below it the load is resistive
-  SourceLocation where;                // where it was defined, when it came from a file
+  double power_w = 0.0;                 // constant-power load: P, W
+  double cut_in_voltage_v = 0.0;        // constant-power load: below it the load is resistive
+  SourceLocation where;                 // where it was defined, when it came from a file
 
   bool is_device() const { return kind == ElementKind::kSwitch || kind == ElementKind::kDiode; }
   bool is_saturating() const { return kind == ElementKind::kInductor && saturation_current_a > 0; }

@@ -42,7 +42,7 @@ struct SignalInfo {
 // A group of nodes that the open devices of a configuration leave floating.
 struct FloatingGroup {
   std::vector<std::string> nodes;
-  std::vector<int> cutset_inductors;       // element indices
+  std::vector<int> cutset_inductors;        // element indices
   std::vector<int> cutset_current_sources;  // element indices
   std::vector<int> adjacent_open_devices;   // element indices
   // Net current into the group through its cutset: current_row_x * x + current_row_u * u.
@@ -54,8 +54,8 @@ struct FloatingGroup {
 class ConfigurationModel {
  public:
   DevicePattern pattern = 0;
-  bool valid = false;      // false: the configuration closes a loop of zero-resistance branches
-  std::string problem;     // why it is not valid
+  bool valid = false;   // false: the configuration closes a loop of zero-resistance branches
+  std::string problem;  // why it is not valid
   std::vector<int> loop_elements;  // element indices of that loop
   Eigen::MatrixXd A, B, C, D, E, F;
   std::vector<FloatingGroup> floating_groups;

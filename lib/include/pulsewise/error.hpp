@@ -18,19 +18,19 @@ struct SourceLocation {
 
 // What class of input problem was found; the driver maps every kind to the bad-input exit code.
 enum class ErrorKind {
-  kInvalidValue,     // non-finite, non-positive or out-of-range number
-  kDuplicateName,    // two elements, or an element and a node, share a name
-  kUnknownNode,      // an element refers to a node name that is not allowed
-  kUnknownGate,      // a switch names a gate signal no modulator provides
-  kFloatingNode,     // a node (or group of nodes) is connected to nothing else
-  kVoltageLoop,      // a loop of voltage sources and zero-ESR capacitors
-  kCurrentCutset,    // a cutset of current sources and inductors no device can relieve
-  kTooManyDevices,   // more switching devices than a pattern can hold
-  kFileSyntax,       // the file is not valid TOML
-  kUnknownKey,       // a key the schema does not know
-  kMissingKey,       // a required key is absent
-  kWrongUnit,        // a value carries a unit symbol that does not fit the field
-  kInvalidOption,    // a solver or run option is out of range
+  kInvalidValue,    // non-finite, non-positive or out-of-range number
+  kDuplicateName,   // two elements, or an element and a node, share a name
+  kUnknownNode,     // an element refers to a node name that is not allowed
+  kUnknownGate,     // a switch names a gate signal no modulator provides
+  kFloatingNode,    // a node (or group of nodes) is connected to nothing else
+  kVoltageLoop,     // a loop of voltage sources and zero-ESR capacitors
+  kCurrentCutset,   // a cutset of current sources and inductors no device can relieve
+  kTooManyDevices,  // more switching devices than a pattern can hold
+  kFileSyntax,      // the file is not valid TOML
+  kUnknownKey,      // a key the schema does not know
+  kMissingKey,      // a required key is absent
+  kWrongUnit,       // a value carries a unit symbol that does not fit the field
+  kInvalidOption,   // a solver or run option is out of range
 };
 
 const char* to_string(ErrorKind kind);

@@ -19,10 +19,10 @@ struct RecordingOptions {
   std::vector<RecordingWindow> windows;
   // Uniform samples per switching period inside a window, in addition to every event instant.
   int samples_per_period = 64;
-  bool record_events = true;       // keep the event log
-  bool record_cycles = true;       // keep the per-cycle table
+  bool record_events = true;        // keep the event log
+  bool record_cycles = true;        // keep the per-cycle table
   long flush_every_periods = 1000;  // flush the file at least this often, periods
-  std::string output_path;         // trace file; empty: beside the circuit file
+  std::string output_path;          // trace file; empty: beside the circuit file
 
   // Throws InputError (kInvalidOption) naming the field and the fix.
   void validate() const;

@@ -95,28 +95,28 @@ struct CycleMetrics {
   std::vector<ConfigurationInterval> intervals;
   std::vector<SignalStats> signals;  // per recorded signal
   long events = 0;
-  double energy_in_j = 0.0;          // delivered by the sources
+  double energy_in_j = 0.0;  // delivered by the sources
   double stored_energy_change_j = 0.0;
-  double dissipated_j = 0.0;         // in resistors, DCR, ESR, device resistances and drops
-  double state_change = 0.0;          // ||x(end) - x(start)|| relative to ||x||
+  double dissipated_j = 0.0;  // in resistors, DCR, ESR, device resistances and drops
+  double state_change = 0.0;  // ||x(end) - x(start)|| relative to ||x||
 };
 
 enum class RunEnd {
-  kCompleted,                // all requested periods simulated
-  kSteadyState,              // stopped early at steady state
-  kChattering,               // too many events in one period
+  kCompleted,                  // all requested periods simulated
+  kSteadyState,                // stopped early at steady state
+  kChattering,                 // too many events in one period
   kNoConsistentConfiguration,  // the consistency search cycled
-  kInterruptedCurrent,        // a switch opened an inductor current with no freewheeling path
-  kZeroResistanceLoop,        // a configuration closed a loop of zero-resistance branches
+  kInterruptedCurrent,         // a switch opened an inductor current with no freewheeling path
+  kZeroResistanceLoop,         // a configuration closed a loop of zero-resistance branches
 };
 const char* to_string(RunEnd end);
 
 struct StartupMetrics {
   std::vector<std::string> inductors;
   std::vector<double> peak_inductor_current_a;  // largest |i| over the run, per inductor
-  double output_peak = 0.0;                      // largest value of the output signal
-  double overshoot = 0.0;    // (output_peak - final average) / |final average|, >= 0
-  long settling_cycle = -1;  // first cycle from which the average stays inside the band
+  double output_peak = 0.0;                     // largest value of the output signal
+  double overshoot = 0.0;        // (output_peak - final average) / |final average|, >= 0
+  long settling_cycle = -1;      // first cycle from which the average stays inside the band
   long steady_state_cycle = -1;  // cycle at which steady state was detected, -1 if never
 };
 

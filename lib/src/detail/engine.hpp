@@ -18,7 +18,7 @@ namespace pulsewise::detail {
 // z = [x; u; du/dt of the ramping inputs].
 struct PatternData {
   const ConfigurationModel* model = nullptr;
-  Eigen::MatrixXd M;        // dz/dt = M z
+  Eigen::MatrixXd M;         // dz/dt = M z
   Eigen::MatrixXd recorded;  // rows: recorded signals
   Eigen::MatrixXd events;    // rows: device conditions g >= 0 (one per diode)
   Eigen::MatrixXd energy;    // rows: (v, i) of each element taking part in the energy balance

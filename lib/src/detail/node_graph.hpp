@@ -11,7 +11,7 @@
 namespace pulsewise::detail {
 
 struct NodeGraph {
-  std::vector<std::string> names;  // non-ground nodes
+  std::vector<std::string> names;   // non-ground nodes
   std::vector<int> node_a, node_b;  // per element; ground is ground()
   int ground() const { return static_cast<int>(names.size()); }
 

@@ -74,8 +74,7 @@ double safeguarded_newton(Value f, Slope df, double lo, double hi, double s_tole
 
 inline double root(const double* a, int order, double lo, double hi, double s_tolerance) {
   return safeguarded_newton([&](double s) { return eval(a, order, s); },
-                            [&](double s) { return derivative(a, order, s); }, lo, hi,
-                            s_tolerance);
+                            [&](double s) { return derivative(a, order, s); }, lo, hi, s_tolerance);
 }
 
 // Root of the derivative (an extremum) in [lo, hi], given a sign change of p' there.
