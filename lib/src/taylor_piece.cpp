@@ -1,40 +1,90 @@
 #include "detail/taylor_piece.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
+#include <type_traits>
 
 namespace pulsewise::detail {
 
-bool TaylorPiece::expand(const Eigen::MatrixXd& M, const Eigen::VectorXd& z0, double h) {
-  constexpr double kUnitRoundoff = std::numeric_limits<double>::epsilon() / 2;
-  h_ = h;
-  terms_.col(0) = z0;
-  double sum_norm = z0.lpNorm<Eigen::Infinity>();
+namespace {
+
+constexpr double kUnitRoundoff = std::numeric_limits<double>::epsilon() / 2;
+
+// The Taylor recursion z_k = (h / k) M z_{k-1} with the stopping test of Al-Mohy and Higham.
+// N > 0 fixes the dimension at compile time (the common small circuits), N == 0 is generic;
+// fixed sizes let the compiler unroll and vectorise the tiny matrix-vector products.
+template <int N>
+int expand_terms(const double* m, double* terms, int n_runtime, double h, int max_order) {
+  const int n = N > 0 ? N : n_runtime;
+  double sum_norm = 0.0;
+  for (int i = 0; i < n; ++i) sum_norm = std::max(sum_norm, std::abs(terms[i]));
   double previous = sum_norm;
-  const int n = static_cast<int>(M.rows());
-  const double* m = M.data();
-  for (int k = 1; k <= kMaxOrder; ++k) {
-    const double* prev = terms_.data() + (k - 1) * n;
-    double* next = terms_.data() + k * n;
+  for (int k = 1; k <= max_order; ++k) {
+    const double* prev = terms + (k - 1) * n;
+    double* next = terms + k * n;
     const double scale = h / k;
-    for (int i = 0; i < n; ++i) next[i] = 0.0;
+    double acc[N > 0 ? N : 1];
+    double* out = N > 0 ? acc : next;
+    for (int i = 0; i < n; ++i) out[i] = 0.0;
     for (int j = 0; j < n; ++j) {
       const double pj = scale * prev[j];
-      if (pj == 0.0) continue;
       const double* column = m + j * n;
-      for (int i = 0; i < n; ++i) next[i] += column[i] * pj;
+      for (int i = 0; i < n; ++i) out[i] += column[i] * pj;
     }
     double term = 0.0;
-    for (int i = 0; i < n; ++i) term = std::max(term, std::abs(next[i]));
-    sum_norm = std::max(sum_norm, term);
-    if (term + previous <= kUnitRoundoff * sum_norm) {
-      order_ = k;
-      return true;
+    for (int i = 0; i < n; ++i) {
+      next[i] = out[i];
+      term = std::max(term, std::abs(out[i]));
     }
+    sum_norm = std::max(sum_norm, term);
+    if (term + previous <= kUnitRoundoff * sum_norm) return k;
     previous = term;
   }
-  order_ = kMaxOrder;
-  return false;
+  return -1;
+}
+
+// out(r, k) = sum_j rows(r, j) terms(j, k), column-major throughout.
+template <int N>
+void project_terms(const double* rows, int r_count, const double* terms, int n_runtime, int order,
+                   double* out, int out_stride) {
+  const int n = N > 0 ? N : n_runtime;
+  for (int k = 0; k <= order; ++k) {
+    const double* z = terms + k * n;
+    double* o = out + k * out_stride;
+    for (int r = 0; r < r_count; ++r) {
+      double v = 0.0;
+      for (int j = 0; j < n; ++j) v += rows[r + j * r_count] * z[j];
+      o[r] = v;
+    }
+  }
+}
+
+template <class F>
+decltype(auto) dispatch(int n, F&& f) {
+  switch (n) {
+    case 2: return f(std::integral_constant<int, 2>{});
+    case 3: return f(std::integral_constant<int, 3>{});
+    case 4: return f(std::integral_constant<int, 4>{});
+    case 5: return f(std::integral_constant<int, 5>{});
+    case 6: return f(std::integral_constant<int, 6>{});
+    case 7: return f(std::integral_constant<int, 7>{});
+    case 8: return f(std::integral_constant<int, 8>{});
+    default: return f(std::integral_constant<int, 0>{});
+  }
+}
+
+}  // namespace
+
+bool TaylorPiece::expand(const Eigen::MatrixXd& M, const Eigen::VectorXd& z0, double h) {
+  h_ = h;
+  terms_.col(0) = z0;
+  const int n = static_cast<int>(M.rows());
+  const int order = dispatch(n, [&](auto size) {
+    return expand_terms<decltype(size)::value>(M.data(), terms_.data(), n, h, kMaxOrder);
+  });
+  order_ = order < 0 ? kMaxOrder : order;
+  return order >= 0;
 }
 
 void TaylorPiece::truncate(double s_end) {
@@ -51,14 +101,11 @@ void TaylorPiece::truncate(double s_end) {
 void TaylorPiece::project(const Eigen::MatrixXd& rows, Eigen::MatrixXd& out) const {
   const int n = static_cast<int>(terms_.rows());
   const int r_count = static_cast<int>(rows.rows());
-  for (int k = 0; k <= order_; ++k) {
-    const double* z = terms_.data() + k * n;
-    for (int r = 0; r < r_count; ++r) {
-      double v = 0.0;
-      for (int j = 0; j < n; ++j) v += rows(r, j) * z[j];
-      out(r, k) = v;
-    }
-  }
+  if (r_count == 0) return;
+  dispatch(n, [&](auto size) {
+    project_terms<decltype(size)::value>(rows.data(), r_count, terms_.data(), n, order_, out.data(),
+                                         static_cast<int>(out.rows()));
+  });
 }
 
 void TaylorPiece::state_at(double s, Eigen::Ref<Eigen::VectorXd> z) const {
