@@ -100,6 +100,8 @@ RunReport make_report(const RunCommandOptions& options, const CircuitFile& file,
   for (const ConfigurationInterval& interval : summary.last_cycle.intervals) {
     report.interval_patterns.push_back(simulation.describe(interval.pattern));
   }
+  report.power =
+      power_balance(file.circuit, summary, report.switching_period_s, report.output_signal);
   report.summary = std::move(summary);
   return report;
 }

@@ -1,6 +1,7 @@
 #include "run_report.hpp"
 
 #include <fmt/core.h>
+#include <fmt/format.h>
 
 #include <algorithm>
 #include <cmath>
@@ -15,10 +16,25 @@ Unit unit_of(const SignalInfo& info) {
   return info.quantity == SignalQuantity::kVoltage ? Unit::kVolt : Unit::kAmpere;
 }
 
-// "12.3 mV"-style text, or "-" for a value that is not finite.
-std::string si(double value, Unit unit) {
+// "12.3 mV"-style text, or "-" for a value that is not finite. `scale` is the signal's largest
+// magnitude: values below 1e-9 of it are round-off around an exact zero (a diode current while
+// the diode is off) and print as 0.
+std::string si(double value, Unit unit, double scale = 0.0) {
   if (!std::isfinite(value)) return "-";
+  if (std::abs(value) < 1e-9 * scale) value = 0.0;
   return format_si_value(value, unit);
+}
+
+// Engineering notation for quantities si_value.hpp has no unit for (W, J): "105.1 mW".
+std::string eng(double value, const char* symbol) {
+  if (!std::isfinite(value)) return "-";
+  if (value != 0.0 && std::abs(value) < 1e-12) return fmt::format("{:.3g} {}", value, symbol);
+  static constexpr const char* kPrefixes[] = {"p", "n", "u", "m", "", "k", "M", "G"};
+  int exponent = 0;
+  if (value != 0.0) exponent = static_cast<int>(std::floor(std::log10(std::abs(value)) / 3.0));
+  exponent = std::clamp(exponent, -4, 3);
+  return fmt::format("{:.4g} {}{}", value / std::pow(1000.0, exponent), kPrefixes[exponent + 4],
+                     symbol);
 }
 
 std::string seconds(double value_s) { return si(value_s, Unit::kSecond); }
@@ -27,7 +43,7 @@ void print_run_line(const RunReport& r) {
   const RunSummary& s = r.summary;
   fmt::print("run        {} after {} periods (t = {}): {}\n", to_string(s.end), s.cycles,
              seconds(s.end_time_s), s.ok() ? "ok" : "ENDED ABNORMALLY");
-  if (!s.message.empty()) fmt::print("           {}\n", s.message);
+  if (!s.ok() && !s.message.empty()) fmt::print("           {}\n", s.message);
   fmt::print("           {} events, {} configurations built, {} cache hits, {:.3f} s wall time\n",
              s.events, s.configurations_built, s.cache_hits, s.wall_time_s);
 }
@@ -74,23 +90,40 @@ void print_signals(const RunReport& r) {
   for (std::size_t i = 0; i < stats.size() && i < s.recorded.size(); ++i) {
     const Unit u = unit_of(s.recorded[i]);
     const SignalStats& st = stats[i];
+    const double scale = std::max(std::abs(st.min), std::abs(st.max));
     fmt::print("  {:<{}}  {:>12} {:>12} {:>12} {:>12} {:>12}\n", s.recorded[i].name, width,
-               si(st.average, u), si(st.rms, u), si(st.min, u), si(st.max, u),
-               si(st.peak_to_peak(), u));
+               si(st.average, u, scale), si(st.rms, u, scale), si(st.min, u, scale),
+               si(st.max, u, scale), si(st.peak_to_peak(), u, scale));
   }
 }
 
 void print_energy(const RunReport& r) {
   const CycleMetrics& c = r.summary.last_cycle;
+  const PowerBalance& p = r.power;
   if (r.switching_period_s <= 0.0 || (c.energy_in_j == 0.0 && c.dissipated_j == 0.0)) return;
-  const double t = r.switching_period_s;
   fmt::print("power over the last period\n");
-  fmt::print("  from sources {}, dissipated {}, stored energy change {}\n",
-             si(c.energy_in_j / t, Unit::kNone) + "W", si(c.dissipated_j / t, Unit::kNone) + "W",
-             si(c.stored_energy_change_j, Unit::kNone) + "J");
-  if (r.efficiency >= 0.0) fmt::print("  efficiency {:.2f} %\n", 100.0 * r.efficiency);
-  for (const auto& [element, loss_w] : r.losses_w) {
-    fmt::print("  loss in {:<10} {}W\n", element, si(loss_w, Unit::kNone));
+  fmt::print("  from sources {}, dissipated {}, stored energy change {}\n", eng(p.input_w, "W"),
+             eng(p.dissipated_w, "W"), eng(c.stored_energy_change_j, "J"));
+  if (p.load_known) {
+    fmt::print("  into the load ({}) {}", fmt::join(p.load_elements, ", "), eng(p.load_w, "W"));
+    if (p.efficiency >= 0.0) fmt::print(", efficiency {:.2f} %", 100.0 * p.efficiency);
+    // Away from steady state the stored energy still changes and load / input is no efficiency.
+    const double stored_w = c.stored_energy_change_j / r.switching_period_s;
+    if (std::abs(stored_w) > 1e-3 * std::abs(p.input_w)) {
+      fmt::print(" (not settled: stored energy changes by {} per period)",
+                 eng(c.stored_energy_change_j, "J"));
+    }
+    fmt::print("\n");
+  }
+  for (const ElementLoss& loss : p.losses) {
+    fmt::print("  loss in {:<10} {:>12}", loss.element, eng(loss.loss_w, "W"));
+    if (p.input_w > 0.0) fmt::print("  {:6.2f} % of input", 100.0 * loss.loss_w / p.input_w);
+    fmt::print("\n");
+  }
+  if (!p.unattributed.empty()) {
+    fmt::print("  not split   {:>12}  ({}: record their currents to split it{})\n",
+               eng(p.unattributed_w, "W"), fmt::join(p.unattributed, ", "),
+               p.load_known ? "" : "; includes the load");
   }
 }
 
@@ -166,33 +199,43 @@ void print_run_report(const RunReport& r) {
 
 nlohmann::json run_report_json(const RunReport& r) {
   const RunSummary& s = r.summary;
+  const PowerBalance& p = r.power;
   nlohmann::json losses = nlohmann::json::object();
-  for (const auto& [element, loss_w] : r.losses_w) losses[element] = finite_or_null(loss_w);
+  for (const ElementLoss& loss : p.losses) losses[loss.element] = finite_or_null(loss.loss_w);
+  nlohmann::json power = {
+      {"input_w", finite_or_null(p.input_w)},
+      {"dissipated_w", finite_or_null(p.dissipated_w)},
+      {"load_elements", p.load_elements},
+      {"load_w", p.load_known ? finite_or_null(p.load_w) : nlohmann::json(nullptr)},
+      {"efficiency", p.efficiency >= 0.0 ? nlohmann::json(p.efficiency) : nullptr},
+      {"losses_w", losses},
+      {"unattributed_w", finite_or_null(p.unattributed_w)},
+      {"unattributed_elements", p.unattributed}};
   nlohmann::json final_state = nlohmann::json::object();
   for (std::size_t i = 0; i < s.state_names.size() && i < std::size_t(s.final_state.size()); ++i) {
     final_state[s.state_names[i]] = finite_or_null(s.final_state[Eigen::Index(i)]);
   }
-  return {{"format", "pulsewise-run-summary"},
-          {"format_version", 1},
-          {"program_version", kVersion},
-          {"input", r.input_path},
-          {"circuit", r.circuit_name},
-          {"trace_file", r.trace_path.empty() ? nlohmann::json(nullptr) : nlohmann::json(r.trace_path)},
-          {"ok", s.ok()},
-          {"end", to_string(s.end)},
-          {"message", s.message},
-          {"cycles", s.cycles},
-          {"events", s.events},
-          {"configurations_built", s.configurations_built},
-          {"cache_hits", s.cache_hits},
-          {"wall_time_s", s.wall_time_s},
-          {"end_time_s", s.end_time_s},
-          {"switching_period_s", r.switching_period_s},
-          {"last_cycle", last_cycle_json(r)},
-          {"startup", startup_json(r)},
-          {"efficiency", r.efficiency >= 0.0 ? nlohmann::json(r.efficiency) : nullptr},
-          {"losses_w", losses},
-          {"final_state", final_state}};
+  return {
+      {"format", "pulsewise-run-summary"},
+      {"format_version", 1},
+      {"program_version", kVersion},
+      {"input", r.input_path},
+      {"circuit", r.circuit_name},
+      {"trace_file", r.trace_path.empty() ? nlohmann::json(nullptr) : nlohmann::json(r.trace_path)},
+      {"ok", s.ok()},
+      {"end", to_string(s.end)},
+      {"message", s.message},
+      {"cycles", s.cycles},
+      {"events", s.events},
+      {"configurations_built", s.configurations_built},
+      {"cache_hits", s.cache_hits},
+      {"wall_time_s", s.wall_time_s},
+      {"end_time_s", s.end_time_s},
+      {"switching_period_s", r.switching_period_s},
+      {"last_cycle", last_cycle_json(r)},
+      {"startup", startup_json(r)},
+      {"power", power},
+      {"final_state", final_state}};
 }
 
 }  // namespace pulsewise::app

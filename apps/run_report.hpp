@@ -6,6 +6,7 @@
 #include <string>
 #include <vector>
 
+#include "losses.hpp"
 #include "pulsewise/simulation.hpp"
 
 namespace pulsewise::app {
@@ -17,10 +18,7 @@ struct RunReport {
   double switching_period_s = 0.0;
   std::string output_signal;                   // the signal start-up figures refer to, may be empty
   std::vector<std::string> interval_patterns;  // "S1 on, D1 off" per last-cycle interval
-  // Efficiency: power into the named load elements over power from the sources, last period;
-  // negative when it cannot be computed (no load named, or no energy in).
-  double efficiency = -1.0;
-  std::vector<std::pair<std::string, double>> losses_w;  // element, average loss, W
+  PowerBalance power;                          // efficiency and loss split of the last period
   RunSummary summary;
 };
 

@@ -6,10 +6,10 @@
 
 #include <algorithm>
 #include <cmath>
-#include <limits>
 #include <cstdlib>
 #include <filesystem>
 #include <fstream>
+#include <limits>
 #include <nlohmann/json.hpp>
 #include <sstream>
 #include <string>
@@ -75,41 +75,41 @@ fs::path write_file(const fs::path& dir, const std::string& name, const std::str
 // A small valid boost converter in the circuit-file schema (docs/circuit-file.md); tests break
 // one line of it at a time. Line numbers matter: the broken lines are named in the tests.
 std::string boost_file() {
-  return "[circuit]\n"                                             // 1
-         "name = \"driver-test boost\"\n"                          // 2
-         "[[voltage_source]]\n"                                    // 3
-         "name = \"Vin\"\n"                                        // 4
-         "nodes = [\"in\", \"0\"]\n"                               // 5
-         "voltage = \"5 V\"\n"                                     // 6
-         "[[inductor]]\n"                                          // 7
-         "name = \"L1\"\n"                                         // 8
-         "nodes = [\"in\", \"sw\"]\n"                              // 9
-         "inductance = \"10 uH\"\n"                                // 10
-         "[[switch]]\n"                                            // 11
-         "name = \"S1\"\n"                                         // 12
-         "nodes = [\"sw\", \"0\"]\n"                               // 13
-         "gate = \"pwm1\"\n"                                       // 14
-         "on_resistance = \"10 mOhm\"\n"                           // 15
-         "[[diode]]\n"                                             // 16
-         "name = \"D1\"\n"                                         // 17
-         "nodes = [\"sw\", \"out\"]\n"                             // 18
-         "[[capacitor]]\n"                                         // 19
-         "name = \"C1\"\n"                                         // 20
-         "nodes = [\"out\", \"0\"]\n"                              // 21
-         "capacitance = \"47 uF\"\n"                               // 22
-         "[[resistor]]\n"                                          // 23
-         "name = \"Rload\"\n"                                      // 24
-         "nodes = [\"out\", \"0\"]\n"                              // 25
-         "resistance = \"50 Ohm\"\n"                               // 26
-         "[[pwm]]\n"                                               // 27
-         "name = \"pwm1\"\n"                                       // 28
-         "frequency = \"200 kHz\"\n"                               // 29
-         "duty = 0.4\n"                                            // 30
-         "[run]\n"                                                 // 31
-         "periods = 300\n"                                         // 32
-         "output_signal = \"out.v\"\n"                             // 33
-         "[record]\n"                                              // 34
-         "signals = [\"out.v\", \"L1.i\"]\n";                      // 35
+  return "[circuit]\n"                         // 1
+         "name = \"driver-test boost\"\n"      // 2
+         "[[voltage_source]]\n"                // 3
+         "name = \"Vin\"\n"                    // 4
+         "nodes = [\"in\", \"0\"]\n"           // 5
+         "voltage = \"5 V\"\n"                 // 6
+         "[[inductor]]\n"                      // 7
+         "name = \"L1\"\n"                     // 8
+         "nodes = [\"in\", \"sw\"]\n"          // 9
+         "inductance = \"10 uH\"\n"            // 10
+         "[[switch]]\n"                        // 11
+         "name = \"S1\"\n"                     // 12
+         "nodes = [\"sw\", \"0\"]\n"           // 13
+         "gate = \"pwm1\"\n"                   // 14
+         "on_resistance = \"10 mOhm\"\n"       // 15
+         "[[diode]]\n"                         // 16
+         "name = \"D1\"\n"                     // 17
+         "nodes = [\"sw\", \"out\"]\n"         // 18
+         "[[capacitor]]\n"                     // 19
+         "name = \"C1\"\n"                     // 20
+         "nodes = [\"out\", \"0\"]\n"          // 21
+         "capacitance = \"47 uF\"\n"           // 22
+         "[[resistor]]\n"                      // 23
+         "name = \"Rload\"\n"                  // 24
+         "nodes = [\"out\", \"0\"]\n"          // 25
+         "resistance = \"50 Ohm\"\n"           // 26
+         "[[pwm]]\n"                           // 27
+         "name = \"pwm1\"\n"                   // 28
+         "frequency = \"200 kHz\"\n"           // 29
+         "duty = 0.4\n"                        // 30
+         "[run]\n"                             // 31
+         "periods = 300\n"                     // 32
+         "output_signal = \"out.v\"\n"         // 33
+         "[record]\n"                          // 34
+         "signals = [\"out.v\", \"L1.i\"]\n";  // 35
 }
 
 std::string replace_line(const std::string& text, int line, const std::string& with) {
@@ -121,7 +121,8 @@ std::string replace_line(const std::string& text, int line, const std::string& w
 
 // The bad-input contract (docs/exit-codes.md): code 2, an "error:" line naming the file and line
 // and the element, nothing on stdout, no trace file.
-void expect_bad_input(const Outcome& o, const fs::path& file, int line, const std::string& element) {
+void expect_bad_input(const Outcome& o, const fs::path& file, int line,
+                      const std::string& element) {
   EXPECT_EQ(o.code, pulsewise::app::kExitBadInput) << o.err;
   const std::string where = file.string() + ":" + std::to_string(line) + ":";
   EXPECT_NE(o.err.find(where), std::string::npos) << "expected " << where << " in: " << o.err;
@@ -213,8 +214,7 @@ TEST(DriverRun, UnknownGateNamesFileLineAndElement) {
 
 TEST(DriverRun, TomlSyntaxErrorNamesFileAndLine) {
   const fs::path dir = scratch();
-  const fs::path file =
-      write_file(dir, "bad.toml", replace_line(boost_file(), 30, "duty = = 0.4"));
+  const fs::path file = write_file(dir, "bad.toml", replace_line(boost_file(), 30, "duty = = 0.4"));
   expect_bad_input(run_driver({"run", file.string()}, dir), file, 30, "");
 }
 
@@ -297,6 +297,33 @@ TEST(DriverRun, JsonSummaryParsesAndFollowsTheDocumentedSchema) {
   EXPECT_TRUE(fs::exists(trace));
 }
 
+// Energy conservation over one period (Tellegen's theorem; common practice, no source): the
+// power from the sources equals the power into the load, plus every element's loss, plus the
+// change of stored energy per period. The driver computes the load and the losses from the RMS
+// of recorded signals, the engine the input and the dissipation from its own energy integrals;
+// with every lossy element's current recorded, the two must close the balance.
+TEST(DriverRun, LossSplitAndLoadCloseTheEnergyBalance) {
+  const fs::path dir = scratch();
+  const fs::path file = write_file(
+      dir, "boost.toml", replace_line(boost_file(), 35, "signals = [\"out.v\", \"S1.i\"]"));
+  const Outcome o = run_driver({"run", file.string(), "--json", "--no-trace"}, dir);
+  ASSERT_EQ(o.code, 0) << o.err;
+  const nlohmann::json j = nlohmann::json::parse(o.out);
+  const auto& p = j.at("power");
+  EXPECT_TRUE(p.at("unattributed_elements").empty()) << p.dump();
+  const double input = p.at("input_w").get<double>();
+  const double load = p.at("load_w").get<double>();
+  const double switch_loss = p.at("losses_w").at("S1").get<double>();
+  const double stored =
+      j.at("last_cycle").at("stored_energy_change_j").get<double>() / 5e-6;  // per period
+  const double balance = input - load - switch_loss - stored;
+  std::printf("input %.9g W, load %.9g W, S1 %.9g W, stored %.3g W, residual %.3g W\n", input, load,
+              switch_loss, stored, balance);
+  // 1e-9 of the input: the integrals are exact up to round-off over a few thousand operations.
+  EXPECT_NEAR(balance, 0.0, 1e-9 * input);
+  EXPECT_NEAR(p.at("efficiency").get<double>(), load / input, 1e-12);
+}
+
 TEST(DriverRun, TextSummaryNamesModeSignalsAndTraceFile) {
   const fs::path dir = scratch();
   const fs::path file = write_file(dir, "boost.toml", boost_file());
@@ -372,8 +399,8 @@ TEST(DriverTraces, InfoOnAFileThatIsNotATraceIsBadInput) {
 
 TEST(DriverVerify, OnePointAgreesWithTheBookFormulaAndExitsZero) {
   const fs::path dir = scratch();
-  const Outcome o = run_driver(
-      {"verify", "--converter", "boost", "--duty", "0.3", "--k", "0.05", "--json"}, dir);
+  const Outcome o =
+      run_driver({"verify", "--converter", "boost", "--duty", "0.3", "--k", "0.05", "--json"}, dir);
   ASSERT_EQ(o.code, 0) << o.err << o.out;
   const nlohmann::json j = nlohmann::json::parse(o.out);
   ASSERT_EQ(j.at("rows").size(), 1u);
@@ -391,8 +418,7 @@ TEST(DriverVerify, OnePointAgreesWithTheBookFormulaAndExitsZero) {
 
 TEST(DriverVerify, TablePrintsTheSourcesUnderIt) {
   const fs::path dir = scratch();
-  const Outcome o =
-      run_driver({"verify", "--converter", "buck", "--duty", "0.5", "--k", "2"}, dir);
+  const Outcome o = run_driver({"verify", "--converter", "buck", "--duty", "0.5", "--k", "2"}, dir);
   ASSERT_EQ(o.code, 0) << o.err << o.out;
   EXPECT_NE(o.out.find("Erickson & Maksimovic, Fundamentals of Power Electronics, 2nd ed."),
             std::string::npos);
