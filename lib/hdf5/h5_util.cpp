@@ -256,7 +256,9 @@ AppendDataset::AppendDataset(H5::Group& group, const std::string& name,
     : width_(width) {
   const int rank = width == 0 ? 1 : 2;
   const std::size_t row_bytes = file_type.getSize() * std::max<std::size_t>(width, 1);
-  const hsize_t chunk_rows = std::max<std::size_t>(16, chunks.chunk_bytes / row_bytes);
+  const hsize_t chunk_rows =
+      std::max(ChunkSettings::kMinChunkRows,
+               std::min(chunks.rows_per_flush, chunks.chunk_bytes / row_bytes));
   const hsize_t dims[2] = {0, width};
   const hsize_t max_dims[2] = {H5S_UNLIMITED, width};
   const hsize_t chunk_dims[2] = {chunk_rows, std::max<std::size_t>(width, 1)};
@@ -267,7 +269,14 @@ AppendDataset::AppendDataset(H5::Group& group, const std::string& name,
     properties.setShuffle();
     properties.setDeflate(chunks.deflate_level);
   }
-  dataset_ = group.createDataSet(name, file_type, H5::DataSpace(rank, dims, max_dims), properties);
+  // Rows are only appended, so the chunk cache needs to hold no more than the last chunk (and
+  // the next one while a write spans both). HDF5's default of 1 MiB per dataset would hold on to
+  // finished chunks, costing memory and time on every extend.
+  H5::DSetAccPropList access;
+  const std::size_t chunk_size = static_cast<std::size_t>(chunk_rows) * row_bytes;
+  access.setChunkCache(7, 2 * chunk_size + 1024, 1.0);
+  dataset_ = group.createDataSet(name, file_type, H5::DataSpace(rank, dims, max_dims), properties,
+                                 access);
 }
 
 void AppendDataset::append(const void* data, std::size_t rows, const H5::DataType& memory_type) {

@@ -55,7 +55,12 @@ std::vector<std::string> read_string_dataset(const H5::DataSet& dataset, std::si
 
 struct ChunkSettings {
   std::size_t chunk_bytes = 128 * 1024;  // target size of one chunk before compression
-  int deflate_level = 4;                 // 0: no compression
+  int deflate_level = 1;                 // 0: no compression
+  // Rows the dataset is expected to grow by between two flushes. A chunk holds no more (but at
+  // least kMinChunkRows): each flush recompresses the partly filled last chunk, and a chunk much
+  // larger than what a flush adds would be recompressed many times over.
+  std::size_t rows_per_flush = SIZE_MAX;
+  static constexpr std::size_t kMinChunkRows = 64;
 };
 
 // An extendible dataset of rows of `width` elements (1-D when width is 0), appended at the end.

@@ -243,9 +243,13 @@ void Hdf5Recorder::Impl::create_layout(const std::vector<SignalInfo>& signals) {
   }
   h5::write_attribute(wave_group, "windows", windows, 2);
   h5::write_attribute(wave_group, "samples_per_period", std::int32_t{recording.samples_per_period});
-  wave_time = h5::AppendDataset(wave_group, "time_s", H5::PredType::IEEE_F64LE, 0, chunks);
-  wave_values =
-      h5::AppendDataset(wave_group, "values", H5::PredType::IEEE_F64LE, signal_count, chunks);
+  h5::ChunkSettings wave_chunks = chunks;
+  // Outside the windows a flush adds no rows; inside, the grid plus a few piece boundaries.
+  wave_chunks.rows_per_flush = static_cast<std::size_t>(recording.flush_every_periods) *
+                               static_cast<std::size_t>(recording.samples_per_period + 4);
+  wave_time = h5::AppendDataset(wave_group, "time_s", H5::PredType::IEEE_F64LE, 0, wave_chunks);
+  wave_values = h5::AppendDataset(wave_group, "values", H5::PredType::IEEE_F64LE, signal_count,
+                                  wave_chunks);
 
   H5::Group cycle_group = root.createGroup(layout::kCycles);
   create_cycle_datasets(cycle_group);
@@ -260,6 +264,8 @@ void Hdf5Recorder::Impl::create_layout(const std::vector<SignalInfo>& signals) {
 }
 
 void Hdf5Recorder::Impl::create_cycle_datasets(H5::Group& group) {
+  h5::ChunkSettings chunks = this->chunks;
+  chunks.rows_per_flush = static_cast<std::size_t>(recording.flush_every_periods);
   const auto f64 = H5::PredType::IEEE_F64LE;
   const std::size_t n = signal_count;
   const int d = layout::kIntervalColumns;
@@ -282,6 +288,9 @@ void Hdf5Recorder::Impl::create_cycle_datasets(H5::Group& group) {
 }
 
 void Hdf5Recorder::Impl::create_event_datasets(H5::Group& group) {
+  h5::ChunkSettings chunks = this->chunks;
+  // A converter period has a few events (two gate edges, a diode turn-on and turn-off).
+  chunks.rows_per_flush = 4 * static_cast<std::size_t>(recording.flush_every_periods);
   EventDatasets& e = event_sets;
   e.time_s = h5::AppendDataset(group, "time_s", H5::PredType::IEEE_F64LE, 0, chunks);
   e.kind = h5::AppendDataset(group, "kind", layout::event_kind_type(), 0, chunks);
@@ -289,7 +298,7 @@ void Hdf5Recorder::Impl::create_event_datasets(H5::Group& group) {
   e.name_index = h5::AppendDataset(group, "name_index", H5::PredType::STD_I32LE, 0, chunks);
   e.pattern_after = h5::AppendDataset(group, "pattern_after", H5::PredType::STD_U64LE, 0, chunks);
   h5::ChunkSettings small = chunks;
-  small.chunk_bytes = 4096;
+  small.rows_per_flush = 0;  // a few names, written once each
   e.names = h5::AppendDataset(group, "names", h5::utf8_string_type(), 0, small);
 }
 

@@ -3,6 +3,7 @@
 //
 //   trace_record_helper --out FILE [--periods N] [--flush-every K] [--samples S]
 //                       [--window FIRST:LAST]... [--period-delay-us U] [--source synthetic|engine]
+//                       [--deflate LEVEL] [--chunk-bytes BYTES]
 //
 // Windows are given in periods. Each flush prints "flushed <cycles> <until_s> <waveform_rows>";
 // the end prints "done peak_rss_kib=<KiB> waveform_rows=<rows> file_bytes=<bytes> wall_s=<s>".
@@ -31,6 +32,8 @@ struct Arguments {
   std::vector<std::pair<double, double>> windows;  // periods
   long period_delay_us = 0;
   std::string source = "synthetic";
+  int deflate = 1;
+  long chunk_bytes = 128 << 10;
 };
 
 [[noreturn]] void usage(const char* problem) {
@@ -54,6 +57,10 @@ Arguments parse(int argc, char** argv) {
       a.samples = std::atoi(value);
     } else if (flag == "--period-delay-us") {
       a.period_delay_us = std::atol(value);
+    } else if (flag == "--deflate") {
+      a.deflate = std::atoi(value);
+    } else if (flag == "--chunk-bytes") {
+      a.chunk_bytes = std::atol(value);
     } else if (flag == "--source") {
       a.source = value;
     } else if (flag == "--window") {
@@ -128,7 +135,10 @@ int main(int argc, char** argv) {
   }
   pulsewise::TraceMetadata metadata;
   metadata.circuit_name = "trace_record_helper " + args.source;
-  pulsewise::Hdf5Recorder recorder(args.out, recording, metadata);
+  pulsewise::Hdf5Options options;
+  options.deflate_level = args.deflate;
+  options.chunk_bytes = static_cast<std::size_t>(args.chunk_bytes);
+  pulsewise::Hdf5Recorder recorder(args.out, recording, metadata, options);
   recorder.set_flush_listener([](const pulsewise::RecorderProgress& p) {
     std::printf("flushed %ld %.17g %ld\n", p.cycles_flushed, p.flushed_until_s, p.waveform_rows);
     std::fflush(stdout);
