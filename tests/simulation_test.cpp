@@ -188,3 +188,29 @@ TEST(Simulation, CacheBuildsEachConfigurationOnce) {
 }
 
 }  // namespace
+
+namespace {
+
+TEST(Simulation, PerElementEnergiesAddUpToTheTotalsAndMatchJouleHeating) {
+  using namespace pulsewise;
+  SimulationOptions o;
+  o.periods = 400;
+  o.recorded_signals = {"Rload.i"};
+  Simulation sim(dcm_boost(), o);
+  const RunSummary s = sim.run();
+  ASSERT_TRUE(s.ok());
+  const CycleMetrics& m = s.last_cycle;
+  double in = 0, out = 0, load = 0;
+  for (const ElementEnergy& e : m.element_energy) {
+    const Element& el = sim.model().circuit().elements()[e.element];
+    (el.kind == ElementKind::kVoltageSource ? in : out) += e.energy_j;
+    if (el.name == "Rload") load = e.energy_j;
+  }
+  EXPECT_NEAR(in, m.energy_in_j, 1e-15 * std::abs(m.energy_in_j));
+  EXPECT_NEAR(out, m.dissipated_j, 1e-12 * m.dissipated_j);
+  // Joule's law: a resistor dissipates R * I_rms^2 over the period.
+  const double joule = 60.0 * m.signals[0].rms * m.signals[0].rms * 5e-6;
+  EXPECT_NEAR(load / joule, 1.0, 1e-12);
+}
+
+}  // namespace

@@ -37,7 +37,8 @@ using detail::EnergyTerm;
 using detail::PatternData;
 namespace poly = detail::poly;
 
-void detail::CycleAccumulator::reset(std::size_t signals) {
+void detail::CycleAccumulator::reset(std::size_t signals, std::size_t energy_elements) {
+  element_energy.assign(energy_elements, 0.0);
   integral.assign(signals, 0.0);
   square_integral.assign(signals, 0.0);
   min.assign(signals, std::numeric_limits<double>::infinity());
@@ -529,15 +530,11 @@ struct Simulation::Impl {
         i[m] = energy_coefficients(2 * k + 1, m);
       }
       const EnergyTerm& term = energy_elements[k].second;
-      switch (term.role) {
-        case EnergyRole::kSource: cycle.energy_in += h * poly::product_integral(v, i, order); break;
-        case EnergyRole::kDissipativeVi:
-          cycle.dissipated += h * poly::product_integral(v, i, order);
-          break;
-        case EnergyRole::kSeriesResistance:
-          cycle.dissipated += h * term.resistance_ohm * poly::product_integral(i, i, order);
-          break;
-      }
+      const double e = term.role == EnergyRole::kSeriesResistance
+                           ? h * term.resistance_ohm * poly::product_integral(i, i, order)
+                           : h * poly::product_integral(v, i, order);
+      (term.role == EnergyRole::kSource ? cycle.energy_in : cycle.dissipated) += e;
+      cycle.element_energy[k] += e;
     }
   }
 
@@ -979,6 +976,11 @@ struct Simulation::Impl {
       m.signals[j].max = cycle.max[j];
     }
     m.energy_in_j = cycle.energy_in;
+    if (options.energy_accounting) {
+      m.element_energy.resize(energy_elements.size());
+      for (std::size_t k = 0; k < energy_elements.size(); ++k)
+        m.element_energy[k] = {energy_elements[k].first, cycle.element_energy[k]};
+    }
     m.dissipated_j = cycle.dissipated;
     m.stored_energy_change_j = stored_energy() - cycle.stored_start;
     double change = 0.0;
@@ -1026,12 +1028,12 @@ struct Simulation::Impl {
     energy_coefficients.resize(2 * energy_elements.size(), detail::TaylorPiece::kMaxOrder + 1);
     output_averages.clear();
     in_idle = false;
-    cycle.reset(recorded.size());
+    cycle.reset(recorded.size(), energy_elements.size());
   }
 
   bool run_cycle(long k) {
     const double start = k * period_s, end = (k + 1) * period_s;
-    cycle.reset(recorded.size());
+    cycle.reset(recorded.size(), energy_elements.size());
     cycle.stored_start = stored_energy();
     const Eigen::VectorXd x_start = z.head(n_x);
     while (end - t > options.event_time_tolerance * period_s) {

@@ -86,6 +86,13 @@ struct ConfigurationInterval {
   double fraction = 0.0;  // of the switching period
 };
 
+// Energy of one element over a period: delivered (sources) or dissipated (resistive elements,
+// devices, DCR, ESR, constant-power loads), J.
+struct ElementEnergy {
+  int element = -1;  // index into Circuit::elements()
+  double energy_j = 0.0;
+};
+
 struct CycleMetrics {
   long index = 0;
   double start_time_s = 0.0;
@@ -98,6 +105,9 @@ struct CycleMetrics {
   double energy_in_j = 0.0;  // delivered by the sources
   double stored_energy_change_j = 0.0;
   double dissipated_j = 0.0;  // in resistors, DCR, ESR, device resistances and drops
+  // Per element, every element that delivers or dissipates energy (sums: energy_in_j and
+  // dissipated_j). Empty when energy accounting is off.
+  std::vector<ElementEnergy> element_energy;
   double state_change = 0.0;  // ||x(end) - x(start)|| relative to ||x||
 };
 

@@ -39,10 +39,11 @@ struct CycleAccumulator {
   std::vector<double> integral, square_integral, min, max;
   std::vector<ConfigurationInterval> intervals;
   double energy_in = 0, dissipated = 0, stored_start = 0;
+  std::vector<double> element_energy;  // per energy element
   double idle_time = 0;
   bool natural_turn_off = false;
   long events = 0;
-  void reset(std::size_t signals);
+  void reset(std::size_t signals, std::size_t energy_elements);
 };
 
 }  // namespace pulsewise::detail
