@@ -358,4 +358,167 @@ TEST(BuckBoostConverter, MatchesEricksonMaksimovicRatioAndModeOnDutyAndKGrid) {
   check_grid(Topology::kBuckBoost);
 }
 
+// ---- Cuk converter, CCM (E&M sec. 2.4) --------------------------------------------------------
+
+Circuit cuk(double duty) {
+  // Large L and C: both inductors in CCM and the ripple of C1 and C2 far below 0.5 %.
+  Circuit c("cuk");
+  c.add_voltage_source("Vg", "in", "0", Waveform::constant(kInputV))
+      .add_inductor("L1", "in", "a", 1e-3)
+      .add_switch("S1", "a", "0", "pwm", kSwitch)
+      .add_capacitor("C1", "a", "b", 1e-3)
+      .add_diode("D1", "b", "0", kDiode)
+      .add_inductor("L2", "b", "out", 1e-3)
+      .add_capacitor("C2", "out", "0", kOutputFarad)
+      .add_resistor("Rload", "out", "0", kLoadOhm)
+      .add_modulator(pwm(duty));
+  return c;
+}
+
+TEST(CukConverter, MatchesEricksonMaksimovicCcmRatio) {
+  double worst = 0.0;
+  for (double duty : kDuties) {
+    SCOPED_TRACE("D = " + std::to_string(duty));
+    const double m = -duty / (1.0 - duty);  // E&M sec. 2.4
+    const double v = m * kInputV;
+    Simulation sim(cuk(duty), steady_state_options({"out.v", "L1.i", "C1.v", "L2.i"}));
+    // Averages of the ideal converter: L2 carries the load current, L1 the input current
+    // (power balance), C1 holds Vg - V.
+    sim.set_initial_state(periodic_state(
+        sim.model().circuit(), state_of(sim, {{"L1", v * v / (kLoadOhm * kInputV)},
+                                              {"L2", v / kLoadOhm},
+                                              {"C1", kInputV - v},
+                                              {"C2", v}})));
+    const SteadyState s = run_to_steady_state(sim);
+    ASSERT_EQ(s.summary.end, pulsewise::RunEnd::kSteadyState) << s.summary.message;
+    const auto& c1 = s.summary.last_cycle.signals[2];
+    const double c1_ripple = c1.peak_to_peak() / std::abs(c1.average);
+    // The closed form takes both capacitor voltages constant: same ripple-limited argument and
+    // tolerance as the grid, with the ripple of C1 as well as that of the output below the bound.
+    ASSERT_LT(s.ripple, kRippleBound);
+    ASSERT_LT(c1_ripple, kRippleBound);
+    const double error = std::abs(s.average / v - 1.0);
+    EXPECT_LT(error, kAverageTolerance) << "simulated " << s.average << " V, E&M " << v << " V";
+    EXPECT_EQ(s.summary.last_cycle.mode, ConductionMode::kCcm);
+    worst = std::max(worst, error);
+    std::printf("  cuk D = %.2f  M_E&M = %+9.6f  M = %+9.6f  error = %.2e  ripple out %.2e C1 %.2e\n",
+                duty, m, s.average / kInputV, error, s.ripple, c1_ripple);
+  }
+  std::printf("[ cuk CCM ] worst |M/M_E&M - 1| = %.3e\n", worst);
+  RecordProperty("worst_average_error", std::to_string(worst));
+}
+
+// ---- small-ripple formulas (E&M ch. 2) ---------------------------------------------------------
+
+struct RippleCase {
+  Topology topology;
+  double duty;
+};
+
+// One CCM design per converter with a ripple large enough to measure and small enough for the
+// small-ripple approximation: L = 100 uH (K = 2, above every K_crit), C = 100 uF (R C = 100 Ts).
+constexpr double kRippleInductorH = 100e-6;
+constexpr double kRippleCapacitorF = 100e-6;
+
+TEST(SmallRippleApproximation, MatchesEricksonMaksimovicInductorAndOutputRipple) {
+  for (const RippleCase rc : {RippleCase{Topology::kBuck, 0.5}, RippleCase{Topology::kBoost, 0.5},
+                              RippleCase{Topology::kBuckBoost, 0.5}, RippleCase{Topology::kBuck, 0.25},
+                              RippleCase{Topology::kBoost, 0.75}}) {
+    SCOPED_TRACE(std::string(name_of(rc.topology)) + " D = " + std::to_string(rc.duty));
+    const double d = rc.duty, ts = kPeriodS, l = kRippleInductorH, c = kRippleCapacitorF;
+    const double m = ccm_ratio(rc.topology, d), v = m * kInputV;
+    Simulation sim(converter(rc.topology, d, l, c), steady_state_options({"out.v", "L1.i"}));
+    sim.set_initial_state(periodic_state(
+        sim.model().circuit(),
+        state_of(sim, {{"L1", start_current(rc.topology, d, l, m, true)}, {"C1", v}})));
+    const SteadyState s = run_to_steady_state(sim);
+    ASSERT_EQ(s.summary.end, pulsewise::RunEnd::kSteadyState) << s.summary.message;
+    ASSERT_EQ(s.summary.last_cycle.mode, ConductionMode::kCcm);
+
+    double inductor_pp = 0.0, output_pp = 0.0, inductor_tolerance = 0.0, output_tolerance = 0.0;
+    if (rc.topology == Topology::kBuck) {
+      // E&M sec. 2.2: 2 di = (Vg - V) D Ts / L; sec. 2.5: 2 dv = 2 di Ts / (8 C).
+      inductor_pp = (kInputV - v) * d * ts / l;
+      output_pp = inductor_pp * ts / (8.0 * c);
+      // The on-interval slope (Vg - v) / L takes v = V; v wanders by the output ripple, so the
+      // inductor ripple is off by at most output_pp / (Vg - V) relative; twice that as margin.
+      inductor_tolerance = 2.0 * output_pp / (kInputV - v);
+      // The output formula sends the whole inductor ripple into C. The load takes a part of
+      // relative size 1 / (omega R C) at the fundamental, omega = 2 pi / Ts, in quadrature, and
+      // the inductor ripple is off as above: twice the sum as margin.
+      output_tolerance = 2.0 * (ts / (2.0 * M_PI * kLoadOhm * c) + output_pp / (kInputV - v));
+    } else {
+      // E&M sec. 2.3 (boost), same argument for the buck-boost: during D Ts the inductor sees
+      // exactly Vg, so 2 di = Vg D Ts / L up to the on-resistance drop, which lowers the slope
+      // by R_on I / Vg relative (I = |V| / (R D') the average inductor current); twice that.
+      inductor_pp = kInputV * d * ts / l;
+      inductor_tolerance = 2.0 * kDeviceOnOhm * std::abs(v) / (kLoadOhm * (1.0 - d)) / kInputV;
+      // C alone feeds the load during D Ts: 2 dv = |V| D Ts / (R C). The exact discharge is
+      // exponential, v_max (1 - exp(-x)) with x = D Ts / (R C); curvature and v_max - V each
+      // contribute at most x / 2 relative.
+      const double x = d * ts / (kLoadOhm * c);
+      output_pp = std::abs(v) * x;
+      output_tolerance = x;
+    }
+    const double inductor_error = std::abs(s.inductor_pp / inductor_pp - 1.0);
+    const double output_error = std::abs(s.output_pp / output_pp - 1.0);
+    EXPECT_LT(inductor_error, inductor_tolerance)
+        << "inductor ripple " << s.inductor_pp << " A, E&M " << inductor_pp << " A";
+    EXPECT_LT(output_error, output_tolerance)
+        << "output ripple " << s.output_pp << " V, E&M " << output_pp << " V";
+    std::printf("  %-10s D = %.2f  inductor p-p %.6f A (E&M %.6f, error %.2e, tol %.1e)  output "
+                "p-p %.6e V (E&M %.6e, error %.2e, tol %.1e)\n",
+                name_of(rc.topology), d, s.inductor_pp, inductor_pp, inductor_error,
+                inductor_tolerance, s.output_pp, output_pp, output_error, output_tolerance);
+  }
+}
+
+// ---- boost with inductor winding resistance (E&M sec. 3.2) ------------------------------------
+
+TEST(BoostWithWindingResistance, MatchesEricksonMaksimovicRatioAndEfficiency) {
+  double worst_ratio = 0.0, worst_efficiency = 0.0;
+  for (double duty : {0.3, 0.5, 0.7, 0.8}) {
+    for (double relative_winding : {0.005, 0.02, 0.05}) {
+      SCOPED_TRACE("D = " + std::to_string(duty) + " R_L/R = " + std::to_string(relative_winding));
+      const double winding_ohm = relative_winding * kLoadOhm;
+      const double d_prime = 1.0 - duty;
+      // E&M sec. 3.2: V / Vg = (1 / D') / (1 + R_L / (D'^2 R)) and efficiency
+      // eta = 1 / (1 + R_L / (D'^2 R)).
+      const double efficiency = 1.0 / (1.0 + winding_ohm / (d_prime * d_prime * kLoadOhm));
+      const double m = efficiency / d_prime;
+      const double inductance_h = 1e-3;  // ripple 2 di / I below 2 %: copper loss I_rms^2 ~ I^2
+      Simulation sim(converter(Topology::kBoost, duty, inductance_h, kOutputFarad, winding_ohm),
+                     steady_state_options({"out.v", "L1.i"}));
+      const double load_a = m * kInputV / kLoadOhm;
+      sim.set_initial_state(periodic_state(
+          sim.model().circuit(),
+          state_of(sim, {{"L1", load_a / d_prime}, {"C1", m * kInputV}})));
+      const SteadyState s = run_to_steady_state(sim);
+      ASSERT_EQ(s.summary.end, pulsewise::RunEnd::kSteadyState) << s.summary.message;
+      ASSERT_LT(s.ripple, kRippleBound);
+      const auto& cycle = s.summary.last_cycle;
+      // Exact output power from the exact RMS of the output; input power from the engine's
+      // source energy over the period.
+      const double output_w = cycle.signals[0].rms * cycle.signals[0].rms / kLoadOhm;
+      const double input_w = cycle.energy_in_j / kPeriodS;
+      const double ratio_error = std::abs(s.average / (m * kInputV) - 1.0);
+      const double efficiency_error = std::abs(output_w / input_w / efficiency - 1.0);
+      // Ripple-limited as in the grid; the copper loss uses I^2 for I_rms^2, off by
+      // (2 di)^2 / (12 I^2) < 4e-5 relative here.
+      EXPECT_LT(ratio_error, kAverageTolerance);
+      EXPECT_LT(efficiency_error, kAverageTolerance);
+      worst_ratio = std::max(worst_ratio, ratio_error);
+      worst_efficiency = std::max(worst_efficiency, efficiency_error);
+      std::printf("  boost D = %.2f  R_L/R = %.3f  M_E&M = %.6f  M = %.6f  error = %.2e  eta_E&M = "
+                  "%.6f  eta = %.6f  error = %.2e\n",
+                  duty, relative_winding, m, s.average / kInputV, ratio_error, efficiency,
+                  output_w / input_w, efficiency_error);
+    }
+  }
+  std::printf("[ boost with R_L ] worst ratio error %.3e, worst efficiency error %.3e\n",
+              worst_ratio, worst_efficiency);
+  RecordProperty("worst_ratio_error", std::to_string(worst_ratio));
+  RecordProperty("worst_efficiency_error", std::to_string(worst_efficiency));
+}
+
 }  // namespace
