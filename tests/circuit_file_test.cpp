@@ -351,6 +351,52 @@ file = "traces/all.h5"
   EXPECT_EQ(r.output_path, "traces/all.h5");  // parse_circuit_text leaves paths as written
 }
 
+TEST(CircuitFile, ReadsSineAndRectifiedSineSourcesWithThePhaseAsAFractionOfThePeriod) {
+  const CircuitFile f = parse_circuit_text(
+      appended({"[[voltage_source]]", "name = \"Vline\"", "nodes = [\"ac\", \"0\"]",
+                "voltage = { kind = \"sine\", offset = \"1 V\", amplitude = \"325 V\", "
+                "frequency = \"50 Hz\", phase = 0.25 }",
+                "[[resistor]]", "name = \"Rac\"", "nodes = [\"ac\", \"0\"]", "resistance = 1",
+                "[[current_source]]", "name = \"Irect\"", "nodes = [\"0\", \"out\"]",
+                "current = { kind = \"rectified_sine\", amplitude = \"2 A\", "
+                "frequency = \"60 Hz\" }"}),
+      "sine.toml");
+  const Circuit& c = f.circuit;
+  const Waveform& v = c.elements()[c.find_element("Vline")].waveform;
+  EXPECT_EQ(v.kind(), Waveform::Kind::kSine);
+  EXPECT_EQ(v.offset(), 1.0);
+  EXPECT_EQ(v.amplitude(), 325.0);
+  EXPECT_EQ(v.frequency_hz(), 50.0);
+  // A quarter period is pi / 2 radians.
+  EXPECT_DOUBLE_EQ(v.phase_rad(), std::acos(0.0));
+  const Waveform& i = c.elements()[c.find_element("Irect")].waveform;
+  EXPECT_EQ(i.kind(), Waveform::Kind::kRectifiedSine);
+  EXPECT_EQ(i.offset(), 0.0);
+  EXPECT_EQ(i.amplitude(), 2.0);
+  EXPECT_EQ(i.frequency_hz(), 60.0);
+  EXPECT_EQ(i.phase_rad(), 0.0);
+}
+
+TEST(CircuitFile, ReadsASaturatingInductorAndAConstantPowerLoad) {
+  const CircuitFile f =
+      parse_circuit_text(replaced(21,
+                                  "inductance = \"10 uH\"\nsaturation_current = \"3 A\"\n"
+                                  "saturated_inductance = \"2.2 uH\"\n[[constant_power_load]]\n"
+                                  "name = \"P1\"\nnodes = [\"out\", \"0\"]\npower = \"2.5 W\"\n"
+                                  "cut_in_voltage = \"0.5 V\""),
+                         "nl.toml");
+  const Circuit& c = f.circuit;
+  const Element& l1 = c.elements()[c.find_element("L1")];
+  EXPECT_EQ(l1.saturation_current_a, 3.0);
+  EXPECT_EQ(l1.saturated_inductance_h, 2.2e-6);
+  EXPECT_TRUE(l1.is_saturating());
+  const Element& p1 = c.elements()[c.find_element("P1")];
+  EXPECT_EQ(p1.kind, ElementKind::kConstantPowerLoad);
+  EXPECT_EQ(p1.power_w, 2.5);
+  EXPECT_EQ(p1.cut_in_voltage_v, 0.5);
+  EXPECT_EQ(c.elements()[c.find_element("L1")].value, 10e-6);
+}
+
 TEST(CircuitFile, LeavesEveryOptionAtItsDefaultWhenRunAndRecordAreAbsent) {
   const CircuitFile f = parse_circuit_text(join(base_circuit()), "base.toml");
   const SimulationOptions defaults;
@@ -479,6 +525,32 @@ TEST(CircuitFile, RejectsNegativeWindingResistance) {
                {ErrorKind::kInvalidValue, 34, "L2", "winding_resistance = "});
 }
 
+TEST(CircuitFile, RejectsASaturationCurrentWithoutSaturatedInductance) {
+  expect_error(replaced(21, "inductance = \"10 uH\"\nsaturation_current = \"3 A\""),
+               {ErrorKind::kMissingKey, 22, "L1", "add saturated_inductance"});
+}
+
+TEST(CircuitFile, RejectsASaturatedInductanceAboveTheInductance) {
+  expect_error(replaced(21,
+                        "inductance = \"10 uH\"\nsaturation_current = \"3 A\"\n"
+                        "saturated_inductance = \"22 uH\""),
+               {ErrorKind::kInvalidValue, 23, "L1", "below the inductance"});
+}
+
+TEST(CircuitFile, RejectsAConstantPowerLoadWithoutPositivePower) {
+  expect_error(appended({"[[constant_power_load]]", "name = \"P1\"", "nodes = [\"out\", \"0\"]",
+                         "power = \"-2 W\""}),
+               {ErrorKind::kInvalidValue, 33, "P1", "power = \"2 W\""});
+  expect_error(appended({"[[constant_power_load]]", "name = \"P1\"", "nodes = [\"out\", \"0\"]",
+                         "power = \"2 A\""}),
+               {ErrorKind::kWrongUnit, 33, "P1", "in W"});
+}
+
+TEST(CircuitFile, RejectsASineWithoutFrequency) {
+  expect_error(replaced(10, "voltage = { kind = \"sine\", amplitude = \"5 V\" }"),
+               {ErrorKind::kMissingKey, 10, "Vin", "add frequency = \"50 Hz\""});
+}
+
 TEST(CircuitFile, RejectsDutyOutsideZeroToOne) {
   const InputError e =
       expect_error(replaced(6, "duty = 1.2"), {ErrorKind::kInvalidValue, 6, "pwm1", "duty = 0.3"});
@@ -580,8 +652,8 @@ TEST(CircuitFile, RejectsAWaveformKeyThatDoesNotBelongToItsKind) {
 }
 
 TEST(CircuitFile, RejectsUnknownWaveformKind) {
-  expect_error(replaced(10, "voltage = { kind = \"sine\" }"),
-               {ErrorKind::kInvalidValue, 10, "Vin", "\"step\" or \"table\""});
+  expect_error(replaced(10, "voltage = { kind = \"sawtooth\" }"),
+               {ErrorKind::kInvalidValue, 10, "Vin", "\"sine\" or \"rectified_sine\""});
 }
 
 TEST(CircuitFile, RejectsASingleBracketElementTable) {

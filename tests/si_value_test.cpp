@@ -64,6 +64,8 @@ TEST(SiValue, ReadsTheSpellingsOfTheCircuitFileFormat) {
   EXPECT_EQ(parsed("-5 V", Unit::kVolt), -5.0);
   EXPECT_EQ(parsed("+2 A", Unit::kAmpere), 2.0);
   EXPECT_EQ(parsed("50 ns", Unit::kSecond), 50e-9);
+  EXPECT_EQ(parsed("2.5 kW", Unit::kWatt), 2.5e3);
+  EXPECT_EQ(parsed("250 mW", Unit::kWatt), 250e-3);
   EXPECT_EQ(parsed("1e-3 s", Unit::kSecond), 1e-3);
   EXPECT_EQ(parsed("2.5e3 kHz", Unit::kHertz), 2.5e6);
   EXPECT_EQ(parsed("  7mH  ", Unit::kHenry), 7e-3);

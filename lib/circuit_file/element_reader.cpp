@@ -1,5 +1,6 @@
 // Readers for the element and modulator tables of a circuit file.
 #include <cmath>
+#include <numbers>
 #include <utility>
 
 #include "loader.hpp"
@@ -85,6 +86,25 @@ void read_resistor(const TableReader& reader, Circuit& circuit) {
   circuit.add_resistor(reader.element(), a, b, r, reader.location());
 }
 
+// saturation_current and saturated_inductance come together: both or neither.
+void read_saturation(const TableReader& reader, double inductance_h, InductorOptions& options) {
+  const toml::node* current = reader.find("saturation_current");
+  const toml::node* inductance = reader.find("saturated_inductance");
+  if (!current && !inductance) return;
+  if (!current || !inductance) {
+    const std::string missing = current ? "saturated_inductance" : "saturation_current";
+    reader.fail(ErrorKind::kMissingKey, current ? current : inductance,
+                "a saturating inductor needs both saturation_current and saturated_inductance",
+                "add " + missing + (current ? " = \"2.2 uH\"" : " = \"3 A\""));
+  }
+  options.saturation_current_a =
+      reader.value("saturation_current", Unit::kAmpere, Range::positive(), "\"3 A\"");
+  const Range below_l0{0.0, inductance_h, true, true};
+  options.saturated_inductance_h = reader.value(
+      "saturated_inductance", Unit::kHenry, below_l0,
+      "\"" + format_si_value(inductance_h / 4.0, Unit::kHenry) + "\" (below the inductance)");
+}
+
 void read_inductor(const TableReader& reader, Circuit& circuit) {
   auto [a, b] = read_nodes(reader, "current flows from the first to the second");
   const double l = reader.value("inductance", Unit::kHenry, Range::positive(), "\"10 uH\"");
@@ -93,6 +113,7 @@ void read_inductor(const TableReader& reader, Circuit& circuit) {
       reader.value_or("winding_resistance", Unit::kOhm, Range::non_negative(), "\"20 mOhm\"", 0.0);
   options.initial_current_a =
       reader.value_or("initial_current", Unit::kAmpere, Range::any(), "\"0 A\"", 0.0);
+  read_saturation(reader, l, options);
   circuit.add_inductor(reader.element(), a, b, l, options, reader.location());
 }
 
@@ -143,7 +164,19 @@ Waveform read_table(const TableReader& w, Unit unit, const std::string& example)
   return Waveform::piecewise_linear(std::move(out));
 }
 
-// key = value, or key = {kind = "step" | "table" | "constant", ...}.
+// offset + amplitude * sin(2 pi f t + 2 pi phase), optionally rectified (|sin|). The phase is a
+// fraction of the waveform's period, as for the modulators.
+Waveform read_sine(const TableReader& w, Unit unit, const std::string& example, bool rectified) {
+  const double offset = w.value_or("offset", unit, Range::any(), example, 0.0);
+  const double amplitude = w.value("amplitude", unit, Range::non_negative(), example);
+  const double f = w.value("frequency", Unit::kHertz, Range::positive(), "\"50 Hz\"");
+  const double phase = w.value_or("phase", Unit::kNone, Range::phase(), "0.25", 0.0);
+  const double phase_rad = 2.0 * std::numbers::pi * phase;
+  return rectified ? Waveform::rectified_sine(offset, amplitude, f, phase_rad)
+                   : Waveform::sine(offset, amplitude, f, phase_rad);
+}
+
+// key = value, or key = {kind = "constant" | "step" | "table" | "sine" | "rectified_sine", ...}.
 Waveform read_waveform(const TableReader& reader, std::string_view key, Unit unit) {
   const std::string example = std::string("\"") + (unit == Unit::kVolt ? "12 V" : "1 A") + "\"";
   const toml::node* node = reader.find(key);
@@ -151,7 +184,9 @@ Waveform read_waveform(const TableReader& reader, std::string_view key, Unit uni
     return Waveform::constant(reader.value(key, unit, Range::any(), example));
   }
   const TableReader w(*node->as_table(), reader.file(), std::string(key) + " waveform",
-                      {"kind", "value", "time", "before", "after", "points"}, reader.element());
+                      {"kind", "value", "time", "before", "after", "points", "offset", "amplitude",
+                       "frequency", "phase"},
+                      reader.element());
   const std::string kind = w.string("kind", "\"step\"");
   const auto only = [&w, &kind](std::vector<std::string> keys) {
     TableReader(w.table(), w.file(), "a '" + kind + "' waveform", std::move(keys), w.element());
@@ -168,8 +203,12 @@ Waveform read_waveform(const TableReader& reader, std::string_view key, Unit uni
     only({"kind", "points"});
     return read_table(w, unit, example);
   }
+  if (kind == "sine" || kind == "rectified_sine") {
+    only({"kind", "offset", "amplitude", "frequency", "phase"});
+    return read_sine(w, unit, example, kind == "rectified_sine");
+  }
   w.fail(ErrorKind::kInvalidValue, w.find("kind"), "unknown waveform kind \"" + kind + "\"",
-         "write kind = \"constant\", \"step\" or \"table\"");
+         "write kind = \"constant\", \"step\", \"table\", \"sine\" or \"rectified_sine\"");
 }
 
 void read_voltage_source(const TableReader& reader, Circuit& circuit) {
@@ -205,6 +244,15 @@ void read_diode(const TableReader& reader, Circuit& circuit) {
   circuit.add_diode(reader.element(), anode, cathode, options, reader.location());
 }
 
+void read_constant_power_load(const TableReader& reader, Circuit& circuit) {
+  auto [a, b] = read_nodes(reader, "the load current flows from the first to the second");
+  const double p = reader.value("power", Unit::kWatt, Range::positive(), "\"2 W\"");
+  ConstantPowerOptions options;
+  options.cut_in_voltage_v = reader.value_or("cut_in_voltage", Unit::kVolt, Range::positive(),
+                                             "\"1 V\"", options.cut_in_voltage_v);
+  circuit.add_constant_power_load(reader.element(), a, b, p, options, reader.location());
+}
+
 struct ElementSchema {
   std::string section;
   std::vector<std::string> keys;
@@ -215,7 +263,8 @@ const std::vector<ElementSchema>& element_schemas() {
   static const std::vector<ElementSchema> schemas{
       {"resistor", {"name", "nodes", "resistance"}, read_resistor},
       {"inductor",
-       {"name", "nodes", "inductance", "winding_resistance", "initial_current"},
+       {"name", "nodes", "inductance", "winding_resistance", "initial_current",
+        "saturation_current", "saturated_inductance"},
        read_inductor},
       {"capacitor",
        {"name", "nodes", "capacitance", "series_resistance", "initial_voltage"},
@@ -226,6 +275,9 @@ const std::vector<ElementSchema>& element_schemas() {
       {"diode",
        {"name", "nodes", "on_resistance", "forward_voltage", "off_resistance"},
        read_diode},
+      {"constant_power_load",
+       {"name", "nodes", "power", "cut_in_voltage"},
+       read_constant_power_load},
   };
   return schemas;
 }

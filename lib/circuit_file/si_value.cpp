@@ -20,6 +20,7 @@ const char* unit_symbol(Unit unit) {
     case Unit::kAmpere: return "A";
     case Unit::kHertz: return "Hz";
     case Unit::kSecond: return "s";
+    case Unit::kWatt: return "W";
   }
   return "";
 }
@@ -34,6 +35,7 @@ const char* unit_name(Unit unit) {
     case Unit::kAmpere: return "ampere";
     case Unit::kHertz: return "hertz";
     case Unit::kSecond: return "second";
+    case Unit::kWatt: return "watt";
   }
   return "";
 }
@@ -64,7 +66,7 @@ struct UnitSpelling {
   Unit unit;
 };
 
-constexpr std::array<UnitSpelling, 10> kUnitSpellings{{
+constexpr std::array<UnitSpelling, 11> kUnitSpellings{{
     {"Ohm", Unit::kOhm},
     {"ohm", Unit::kOhm},
     {"\xCE\xA9", Unit::kOhm},      // U+03A9 GREEK CAPITAL LETTER OMEGA
@@ -75,6 +77,7 @@ constexpr std::array<UnitSpelling, 10> kUnitSpellings{{
     {"A", Unit::kAmpere},
     {"Hz", Unit::kHertz},
     {"s", Unit::kSecond},
+    {"W", Unit::kWatt},
 }};
 
 std::string_view trim(std::string_view s) {
@@ -159,6 +162,7 @@ std::string example_for(Unit unit) {
     case Unit::kAmpere: return "\"1.5 A\"";
     case Unit::kHertz: return "\"200 kHz\"";
     case Unit::kSecond: return "\"50 ns\"";
+    case Unit::kWatt: return "\"2 W\"";
   }
   return "";
 }

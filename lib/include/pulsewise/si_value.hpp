@@ -1,7 +1,7 @@
 // Numbers with SI prefixes and unit symbols, as written in circuit files: "10 uH", "4.7u",
 // "100 kHz", "22 mOhm", "2.2 µF", "0.3". A value is a decimal number, optionally followed by one
 // SI prefix and then optionally by the unit symbol of the field it is written in. The result is
-// always in the coherent SI unit (ohm, henry, farad, volt, ampere, hertz, second).
+// always in the coherent SI unit (ohm, henry, farad, volt, ampere, hertz, second, watt).
 //
 // Accepted prefixes: p (1e-12), n (1e-9), u or µ (1e-6), m (1e-3), k (1e3), M (1e6), G (1e9), as
 // defined in BIPM, The International System of Units (SI Brochure), 9th ed., 2019, Table 7. "u"
@@ -18,9 +18,9 @@
 namespace pulsewise {
 
 // The unit a field is expressed in. kNone: a dimensionless number (duty cycle, tolerance).
-enum class Unit { kNone, kOhm, kHenry, kFarad, kVolt, kAmpere, kHertz, kSecond };
+enum class Unit { kNone, kOhm, kHenry, kFarad, kVolt, kAmpere, kHertz, kSecond, kWatt };
 
-// The symbol as written in files: "Ohm", "H", "F", "V", "A", "Hz", "s"; "" for kNone.
+// The symbol as written in files: "Ohm", "H", "F", "V", "A", "Hz", "s", "W"; "" for kNone.
 const char* unit_symbol(Unit unit);
 // The unit's name for messages: "ohm", "henry", ...; "dimensionless" for kNone.
 const char* unit_name(Unit unit);
