@@ -20,6 +20,8 @@
 #include "pulsewise/error.hpp"
 #include "pulsewise/hdf5_recorder.hpp"
 #include "pulsewise/trace_file.hpp"
+#include "boost_circuit.hpp"
+#include "pulsewise/simulation.hpp"
 #include "synthetic_feed.hpp"
 
 extern char** environ;
@@ -72,6 +74,11 @@ void expect_rows_match_feed(const WaveformBlock& block, const SyntheticConverter
                        std::to_string(t));
     }
   }
+}
+
+bool python_has_h5py() {
+  const std::string command = std::string(PULSEWISE_TEST_PYTHON) + " -c 'import h5py' 2>/dev/null";
+  return std::system(command.c_str()) == 0;
 }
 
 std::string record(const std::filesystem::path& path, const SyntheticConverter& c, long periods,
@@ -299,6 +306,21 @@ TEST(Hdf5Recorder, RejectsAPathInAMissingDirectoryNamingIt) {
   }
 }
 
+TEST(Hdf5Recorder, ReleasesTheFileOnCloseWhileTheRecorderLives) {
+  const SyntheticConverter c;
+  const std::string path = (output_dir() / "released.h5").string();
+  Hdf5Recorder recorder(path, RecordingOptions{});
+  c.feed(recorder, 3);
+  recorder.close();
+  // HDF5 locks a file open for writing against other processes; another process can open it
+  // for writing only once it is released.
+  if (!python_has_h5py()) GTEST_SKIP() << PULSEWISE_TEST_PYTHON << " has no h5py";
+  const std::string command = std::string(PULSEWISE_TEST_PYTHON) +
+                              " -c \"import h5py, sys; h5py.File(sys.argv[1], 'r+').close()\" " +
+                              path;
+  EXPECT_EQ(std::system(command.c_str()), 0) << command;
+}
+
 TEST(Hdf5Options, DefaultsValidate) { EXPECT_NO_THROW(Hdf5Options{}.validate()); }
 
 TEST(Hdf5Options, RejectsADeflateLevelAboveNineNamingTheField) {
@@ -311,11 +333,6 @@ TEST(Hdf5Options, RejectsADeflateLevelAboveNineNamingTheField) {
     EXPECT_EQ(e.element(), "deflate_level");
     EXPECT_EQ(e.kind(), ErrorKind::kInvalidOption);
   }
-}
-
-bool python_has_h5py() {
-  const std::string command = std::string(PULSEWISE_TEST_PYTHON) + " -c 'import h5py' 2>/dev/null";
-  return std::system(command.c_str()) == 0;
 }
 
 TEST(Hdf5Recorder, WritesAFileThatH5pyReadsWithTheLastCycleAverageOfTheWaveforms) {
@@ -360,22 +377,25 @@ Child spawn_helper(const std::vector<std::string>& args) {
   return child;
 }
 
-TEST(Hdf5Recorder, FileOfAKilledRunHoldsEveryFlushedPeriod) {
-  const SyntheticConverter c;  // the helper's synthetic feed uses the defaults too
-  const std::string path = (output_dir() / "killed.h5").string();
-  // 100 periods of 0.5 ms between flushes: a flush (about a millisecond) is a small target for
-  // the kill, which lands between flushes.
-  Child child = spawn_helper({"--out", path, "--periods", "100000", "--flush-every", "100",
-                              "--samples", "16", "--period-delay-us", "500"});
-  ASSERT_GT(child.pid, 0);
-  ASSERT_NE(child.out, nullptr);
-  long cycles = 0;
-  double until = 0.0;
+// What the helper had reported when it was killed.
+struct Killed {
+  long cycles = 0;    // periods flushed by the third report
+  double until = 0.0;  // time flushed up to, s
+  bool ok = false;
+};
+
+// Runs the helper, kills it with SIGKILL after its third flush report with periods in it.
+Killed run_and_kill(const std::vector<std::string>& args) {
+  Killed killed;
+  Child child = spawn_helper(args);
+  EXPECT_GT(child.pid, 0);
+  if (child.pid <= 0 || child.out == nullptr) return killed;
   long reports = 0;
   char line[256];
   while (reports < 3 && std::fgets(line, sizeof line, child.out) != nullptr) {
     long rows = 0;
-    if (std::sscanf(line, "flushed %ld %lf %ld", &cycles, &until, &rows) == 3 && cycles > 0) {
+    if (std::sscanf(line, "flushed %ld %lf %ld", &killed.cycles, &killed.until, &rows) == 3 &&
+        killed.cycles > 0) {
       ++reports;
     }
   }
@@ -383,8 +403,22 @@ TEST(Hdf5Recorder, FileOfAKilledRunHoldsEveryFlushedPeriod) {
   int status = 0;
   waitpid(child.pid, &status, 0);
   std::fclose(child.out);
-  ASSERT_EQ(reports, 3) << "the helper did not report three flushes";
-  ASSERT_TRUE(WIFSIGNALED(status)) << "the helper ended before the kill";
+  EXPECT_EQ(reports, 3) << "the helper did not report three flushes";
+  EXPECT_TRUE(WIFSIGNALED(status)) << "the helper ended before the kill";
+  killed.ok = reports == 3 && WIFSIGNALED(status);
+  return killed;
+}
+
+TEST(Hdf5Recorder, FileOfAKilledRunHoldsEveryFlushedPeriod) {
+  const SyntheticConverter c;  // the helper's synthetic feed uses the defaults too
+  const std::string path = (output_dir() / "killed.h5").string();
+  // 100 periods of 0.5 ms between flushes: a flush (about a millisecond) is a small target for
+  // the kill, which lands between flushes.
+  const Killed killed = run_and_kill({"--out", path, "--periods", "100000", "--flush-every",
+                                      "100", "--samples", "16", "--period-delay-us", "500"});
+  ASSERT_TRUE(killed.ok);
+  const long cycles = killed.cycles;
+  const double until = killed.until;
 
   const TraceFile trace(path);
   const TraceInfo& info = trace.info();
@@ -411,6 +445,92 @@ TEST(Hdf5Recorder, FileOfAKilledRunHoldsEveryFlushedPeriod) {
   expect_rows_match_feed(block, c, info.flushed_until_s);
   std::printf("killed after the flush of %ld periods; the file holds %ld cycles, %ld rows\n",
               cycles, info.cycle_rows, info.waveform_rows);
+}
+
+}  // namespace
+}  // namespace pulsewise
+
+namespace pulsewise {
+namespace {
+
+// The real engine on a boost converter (tests/tools/boost_circuit.hpp), recorded in a window.
+TEST(Hdf5Recorder, RecordsARealBoostRunWithEveryEventInstantAsAWaveformRow) {
+  const double T = testing::kBoostPeriodS;
+  const long periods = 300;
+  SimulationOptions options;
+  options.periods = periods;
+  Simulation simulation(testing::boost_circuit(), options);
+  RecordingOptions recording;
+  recording.samples_per_period = 64;
+  recording.flush_every_periods = 64;
+  recording.windows = {{(periods - 3) * T, periods * T}};
+  const std::string path = (output_dir() / "boost.h5").string();
+  Hdf5Recorder recorder(path, recording);
+  const RunSummary summary = simulation.run(&recorder);
+  recorder.close();
+  ASSERT_TRUE(summary.ok()) << summary.message;
+
+  const TraceFile trace(path);
+  const TraceInfo& info = trace.info();
+  EXPECT_TRUE(info.complete);
+  ASSERT_GE(trace.find_signal("L1.i"), 0);
+  ASSERT_EQ(info.cycle_rows, periods);
+  const std::vector<CycleMetrics> cycles = trace.read_cycles(0, -1);
+  for (long k = 0; k < periods; ++k) {
+    EXPECT_EQ(cycles[static_cast<std::size_t>(k)].index, k);
+    EXPECT_NEAR(cycles[static_cast<std::size_t>(k)].start_time_s, k * T, 1e-12 * T);
+  }
+  EXPECT_EQ(cycles.back().signals[3].average, summary.last_cycle.signals[3].average);
+
+  // Events are piece boundaries, so each event inside the window is a waveform row.
+  const WaveformBlock block = trace.read_waveforms(0, -1);
+  std::set<double> times(block.time_s.begin(), block.time_s.end());
+  long inside = 0;
+  for (const EventRecord& event : trace.read_events(0, -1)) {
+    if (event.time_s < (periods - 3) * T || event.time_s > periods * T) continue;
+    ++inside;
+    EXPECT_TRUE(times.count(event.time_s)) << "no row at the event at t = " << event.time_s;
+  }
+  EXPECT_GE(inside, 6);  // two gate edges per period at least
+  // No gap wider than the grid step.
+  for (std::size_t r = 1; r < block.rows(); ++r) {
+    EXPECT_LE(block.time_s[r] - block.time_s[r - 1], T / 64 * (1 + 1e-9));
+  }
+
+  if (!python_has_h5py()) GTEST_SKIP() << PULSEWISE_TEST_PYTHON << " has no h5py";
+  // The waveforms are curved here (exponential pieces), so the trapezoidal rule errs by about
+  // (T/64)^2 max|f''| / 12 (Press et al., Numerical Recipes, 3rd ed., section 4.1). With
+  // L1.i'' = -C1.v' / L and out.v'' = i_C' / C from the circuit values that bound is about 1e-6
+  // relative for both signals; 1e-5 allows a factor 10.
+  const std::string command = std::string(PULSEWISE_TEST_PYTHON) + " " + PULSEWISE_SOURCE_DIR +
+                              "/tests/python/check_trace.py " + path + " L1.i out.v --rtol 1e-5";
+  EXPECT_EQ(std::system(command.c_str()), 0) << command;
+}
+
+TEST(Hdf5Recorder, FileOfAKilledRealEngineRunHoldsEveryFlushedPeriod) {
+  const double T = testing::kBoostPeriodS;
+  const std::string path = (output_dir() / "killed-boost.h5").string();
+  const Killed killed =
+      run_and_kill({"--out", path, "--periods", "100000", "--flush-every", "100", "--samples",
+                    "16", "--period-delay-us", "500", "--source", "engine"});
+  ASSERT_TRUE(killed.ok);
+  const TraceFile trace(path);
+  const TraceInfo& info = trace.info();
+  EXPECT_FALSE(info.complete);
+  EXPECT_GE(info.flushed_cycles, killed.cycles);
+  ASSERT_GE(info.cycle_rows, killed.cycles);
+  const std::vector<CycleMetrics> cycles = trace.read_cycles(0, -1);
+  for (std::size_t k = 0; k < cycles.size(); ++k) {
+    EXPECT_EQ(cycles[k].index, static_cast<long>(k));
+  }
+  // Waveforms of the whole run up to the flushed time, with no gap wider than the grid step.
+  const WaveformBlock block = trace.read_waveforms(0, -1);
+  ASSERT_GT(block.rows(), 0u);
+  EXPECT_EQ(block.time_s.front(), 0.0);
+  EXPECT_GE(block.time_s.back(), killed.until);
+  for (std::size_t r = 1; r < block.rows(); ++r) {
+    ASSERT_LE(block.time_s[r] - block.time_s[r - 1], T / 16 * (1 + 1e-9)) << "gap at row " << r;
+  }
 }
 
 }  // namespace

@@ -479,6 +479,11 @@ void Hdf5Recorder::Impl::close_file() {
   if (!file) return;
   commit();
   try {
+    // The file stays open (and locked) while any of its datasets is open.
+    wave_time = {};
+    wave_values = {};
+    cycle_sets = {};
+    event_sets = {};
     file->close();
   } catch (const H5::Exception& e) {
     fail("closing the file", h5::message_of(e));

@@ -20,6 +20,7 @@
 #include "pulsewise/circuit.hpp"
 #include "pulsewise/hdf5_recorder.hpp"
 #include "pulsewise/simulation.hpp"
+#include "boost_circuit.hpp"
 #include "synthetic_feed.hpp"
 
 namespace {
@@ -75,23 +76,6 @@ Arguments parse(int argc, char** argv) {
   return a;
 }
 
-// A boost converter in CCM: 12 V in, 100 kHz, D = 0.4, 47 uH, 22 uF, 20 ohm.
-pulsewise::Circuit boost_circuit() {
-  pulsewise::Circuit c("helper boost");
-  c.add_voltage_source("Vin", "in", "0", pulsewise::Waveform::constant(12.0));
-  c.add_inductor("L1", "in", "sw", 47e-6);
-  c.add_switch("S1", "sw", "0", "pwm");
-  c.add_diode("D1", "sw", "out");
-  c.add_capacitor("C1", "out", "0", 22e-6);
-  c.add_resistor("R1", "out", "0", 20.0);
-  pulsewise::PwmModulator pwm;
-  pwm.name = "pwm";
-  pwm.frequency_hz = 100e3;
-  pwm.duty_cycle = 0.4;
-  c.add_modulator(pwm);
-  return c;
-}
-
 // Slows the feed down so that the time between flushes is long against a flush.
 class Delay : public pulsewise::Observer {
  public:
@@ -125,7 +109,7 @@ int main(int argc, char** argv) {
   const Arguments args = parse(argc, argv);
   const auto started = std::chrono::steady_clock::now();
   pulsewise::testing::SyntheticConverter synthetic;
-  const double period = args.source == "engine" ? 10e-6 : synthetic.period_s;
+  const double period = args.source == "engine" ? pulsewise::testing::kBoostPeriodS : synthetic.period_s;
 
   pulsewise::RecordingOptions recording;
   recording.samples_per_period = args.samples;
@@ -149,7 +133,7 @@ int main(int argc, char** argv) {
   if (args.source == "engine") {
     pulsewise::SimulationOptions options;
     options.periods = args.periods;
-    pulsewise::Simulation simulation(boost_circuit(), options);
+    pulsewise::Simulation simulation(pulsewise::testing::boost_circuit(), options);
     simulation.run(&both);
   } else if (args.source == "synthetic") {
     synthetic.feed(both, args.periods);
