@@ -1,10 +1,7 @@
-// Efficiency and loss split of the last period, computed by the driver from the exact per-period
-// statistics of the recorded signals: an element's average loss follows from the RMS (and, for a
-// diode's forward drop, the average) of its current, or of its voltage for a resistor:
-//   resistor R: I_rms^2 R = V_rms^2 / R;  inductor DCR, capacitor ESR, device on-resistance:
-//   I_rms^2 R;  diode drop: V_f I_avg.
-// Exact for devices with an open off-state (no current while off). Elements whose current is not
-// recorded are listed as unattributed; the engine's total dissipation closes the balance.
+// Efficiency and loss split of the last period, from the engine's exact per-element energy
+// integrals (CycleMetrics::element_energy): the load is every resistor or constant-power load
+// between the run's output node and ground; each other element's loss is its dissipated energy
+// over the period.
 #pragma once
 
 #include <string>
@@ -23,16 +20,15 @@ struct ElementLoss {
 struct PowerBalance {
   double input_w = 0.0;       // from the sources, W (energy_in / T)
   double dissipated_w = 0.0;  // total dissipation reported by the engine, W
-  bool load_known = false;    // a load resistor across the output node was found
+  bool load_known = false;    // a load across the output node was found and accounted
   std::vector<std::string> load_elements;
-  double load_w = 0.0;                    // into the load resistors, W
-  double efficiency = -1.0;               // load_w / input_w; -1 when not known
-  std::vector<ElementLoss> losses;        // non-load elements with a computable, non-zero loss
-  double unattributed_w = 0.0;            // dissipated - load - sum(losses), W
-  std::vector<std::string> unattributed;  // lossy elements whose current is not recorded
+  double load_w = 0.0;              // into the load, W
+  double efficiency = -1.0;         // load_w / input_w; -1 when not known
+  std::vector<ElementLoss> losses;  // non-load elements with a non-zero loss, element order
+  double unattributed_w = 0.0;      // dissipated - load - sum(losses), W: round-off only
 };
 
-// output_signal: the run's output, e.g. "out.v"; its node's resistors to ground are the load.
+// output_signal: the run's output, e.g. "out.v"; its node's loads to ground are the load.
 PowerBalance power_balance(const Circuit& circuit, const RunSummary& summary, double period_s,
                            const std::string& output_signal);
 

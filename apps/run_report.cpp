@@ -120,11 +120,6 @@ void print_energy(const RunReport& r) {
     if (p.input_w > 0.0) fmt::print("  {:6.2f} % of input", 100.0 * loss.loss_w / p.input_w);
     fmt::print("\n");
   }
-  if (!p.unattributed.empty()) {
-    fmt::print("  not split   {:>12}  ({}: record their currents to split it{})\n",
-               eng(p.unattributed_w, "W"), fmt::join(p.unattributed, ", "),
-               p.load_known ? "" : "; includes the load");
-  }
 }
 
 nlohmann::json finite_or_null(double value) {
@@ -209,8 +204,7 @@ nlohmann::json run_report_json(const RunReport& r) {
       {"load_w", p.load_known ? finite_or_null(p.load_w) : nlohmann::json(nullptr)},
       {"efficiency", p.efficiency >= 0.0 ? nlohmann::json(p.efficiency) : nullptr},
       {"losses_w", losses},
-      {"unattributed_w", finite_or_null(p.unattributed_w)},
-      {"unattributed_elements", p.unattributed}};
+      {"unattributed_w", finite_or_null(p.unattributed_w)}};
   nlohmann::json final_state = nlohmann::json::object();
   for (std::size_t i = 0; i < s.state_names.size() && i < std::size_t(s.final_state.size()); ++i) {
     final_state[s.state_names[i]] = finite_or_null(s.final_state[Eigen::Index(i)]);

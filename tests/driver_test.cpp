@@ -297,12 +297,12 @@ TEST(DriverRun, JsonSummaryParsesAndFollowsTheDocumentedSchema) {
   EXPECT_TRUE(fs::exists(trace));
 }
 
-// Energy conservation over one period (Tellegen's theorem; common practice, no source): the
-// power from the sources equals the power into the load, plus every element's loss, plus the
-// change of stored energy per period. The driver computes the load and the losses from the RMS
-// of recorded signals, the engine the input and the dissipation from its own energy integrals;
-// with every lossy element's current recorded, the two must close the balance.
-TEST(DriverRun, LossSplitAndLoadCloseTheEnergyBalance) {
+// Two independent routes to the same powers: the engine integrates v * i of every element over
+// the period (power.load_w, power.losses_w), while the exact per-period RMS of a recorded signal
+// gives the same figure through Joule's law, P = V_rms^2 / R for the load across out.v and
+// P = I_rms^2 R_on for the switch (common practice, no source). And energy is conserved
+// (Tellegen's theorem): input = load + losses + change of stored energy per period.
+TEST(DriverRun, LossSplitAgreesWithJoulesLawAndClosesTheEnergyBalance) {
   const fs::path dir = scratch();
   const fs::path file = write_file(
       dir, "boost.toml", replace_line(boost_file(), 35, "signals = [\"out.v\", \"S1.i\"]"));
@@ -310,17 +310,26 @@ TEST(DriverRun, LossSplitAndLoadCloseTheEnergyBalance) {
   ASSERT_EQ(o.code, 0) << o.err;
   const nlohmann::json j = nlohmann::json::parse(o.out);
   const auto& p = j.at("power");
-  EXPECT_TRUE(p.at("unattributed_elements").empty()) << p.dump();
-  const double input = p.at("input_w").get<double>();
+  const auto& signals = j.at("last_cycle").at("signals");
+  ASSERT_EQ(signals[0].at("name"), "out.v");
+  ASSERT_EQ(signals[1].at("name"), "S1.i");
+  const double v_rms = signals[0].at("rms").get<double>();
+  const double i_rms = signals[1].at("rms").get<double>();
   const double load = p.at("load_w").get<double>();
   const double switch_loss = p.at("losses_w").at("S1").get<double>();
-  const double stored =
-      j.at("last_cycle").at("stored_energy_change_j").get<double>() / 5e-6;  // per period
-  const double balance = input - load - switch_loss - stored;
-  std::printf("input %.9g W, load %.9g W, S1 %.9g W, stored %.3g W, residual %.3g W\n", input, load,
-              switch_loss, stored, balance);
-  // 1e-9 of the input: the integrals are exact up to round-off over a few thousand operations.
-  EXPECT_NEAR(balance, 0.0, 1e-9 * input);
+  std::printf("load %.12g W vs V_rms^2/R %.12g W; S1 %.12g W vs I_rms^2 R_on %.12g W\n", load,
+              v_rms * v_rms / 50.0, switch_loss, i_rms * i_rms * 10e-3);
+  // 1e-9 relative: both are exact integrals, differing only by round-off.
+  EXPECT_NEAR(load, v_rms * v_rms / 50.0, 1e-9 * load);
+  EXPECT_NEAR(switch_loss, i_rms * i_rms * 10e-3, 1e-9 * switch_loss);
+
+  const double input = p.at("input_w").get<double>();
+  double losses = 0.0;
+  for (const auto& [name, w] : p.at("losses_w").items()) losses += w.get<double>();
+  const double stored_w = j.at("last_cycle").at("stored_energy_change_j").get<double>() / 5e-6;
+  const double residual = input - load - losses - stored_w;
+  std::printf("input %.12g W, residual of the balance %.3g W\n", input, residual);
+  EXPECT_NEAR(residual, 0.0, 1e-9 * input);
   EXPECT_NEAR(p.at("efficiency").get<double>(), load / input, 1e-12);
 }
 
