@@ -17,11 +17,11 @@
 #include <string>
 #include <vector>
 
+#include "boost_circuit.hpp"
 #include "pulsewise/error.hpp"
 #include "pulsewise/hdf5_recorder.hpp"
-#include "pulsewise/trace_file.hpp"
-#include "boost_circuit.hpp"
 #include "pulsewise/simulation.hpp"
+#include "pulsewise/trace_file.hpp"
 #include "synthetic_feed.hpp"
 
 extern char** environ;
@@ -34,7 +34,8 @@ using testing::SyntheticConverter;
 std::filesystem::path output_dir() {
   const auto* test = ::testing::UnitTest::GetInstance()->current_test_info();
   const std::filesystem::path dir = std::filesystem::path(PULSEWISE_BINARY_DIR) / "test-output" /
-                                    "hdf5" / (std::string(test->test_suite_name()) + "." + test->name());
+                                    "hdf5" /
+                                    (std::string(test->test_suite_name()) + "." + test->name());
   std::filesystem::remove_all(dir);
   std::filesystem::create_directories(dir);
   return dir;
@@ -60,8 +61,7 @@ void expect_close(double actual, double expected, double scale, const std::strin
 // Every row equals the closed form just before or just after its instant: the first row of a
 // pair at one instant is the value before, the second the value after, a single row both (or
 // the one that exists at the start and end of the run).
-void expect_rows_match_feed(const WaveformBlock& block, const SyntheticConverter& c,
-                            double end_s) {
+void expect_rows_match_feed(const WaveformBlock& block, const SyntheticConverter& c, double end_s) {
   for (std::size_t r = 0; r < block.rows(); ++r) {
     const double t = block.time_s[r];
     const bool pair_first = r + 1 < block.rows() && block.time_s[r + 1] == t;
@@ -69,9 +69,9 @@ void expect_rows_match_feed(const WaveformBlock& block, const SyntheticConverter
     const bool right = !pair_first && (pair_second || t < end_s);
     const std::vector<double> expected = c.limit(t, right);
     for (std::size_t k = 0; k < block.signal_count; ++k) {
-      expect_close(block.value(r, k), expected[k], 3.0 + c.v_dc,
-                   "row " + std::to_string(r) + " signal " + std::to_string(k) + " t " +
-                       std::to_string(t));
+      expect_close(
+          block.value(r, k), expected[k], 3.0 + c.v_dc,
+          "row " + std::to_string(r) + " signal " + std::to_string(k) + " t " + std::to_string(t));
     }
   }
 }
@@ -116,8 +116,8 @@ TEST(Hdf5Recorder, StoresWaveformsEqualToTheAnalyticFunctionsAtEveryRow) {
     const double m = std::round(t / step);
     if (std::abs(t - m * step) <= 1e-9 * step) continue;
     const double tau = t / c.period_s - std::floor(t / c.period_s);
-    const bool boundary = std::abs(tau - 0.15) < 1e-9 || std::abs(tau - 0.3) < 1e-9 ||
-                          std::abs(tau - 0.65) < 1e-9;
+    const bool boundary =
+        std::abs(tau - 0.15) < 1e-9 || std::abs(tau - 0.3) < 1e-9 || std::abs(tau - 0.65) < 1e-9;
     EXPECT_TRUE(boundary) << "row " << r << " at t = " << t;
   }
 }
@@ -287,7 +287,8 @@ TEST(Hdf5Recorder, FlushesEveryAskedNumberOfPeriods) {
   recording.flush_every_periods = 10;
   Hdf5Recorder recorder((output_dir() / "flushes.h5").string(), recording);
   std::vector<long> flushed;
-  recorder.set_flush_listener([&](const RecorderProgress& p) { flushed.push_back(p.cycles_flushed); });
+  recorder.set_flush_listener(
+      [&](const RecorderProgress& p) { flushed.push_back(p.cycles_flushed); });
   c.feed(recorder, 95);
   recorder.close();
   const std::set<long> distinct(flushed.begin(), flushed.end());
@@ -379,7 +380,7 @@ Child spawn_helper(const std::vector<std::string>& args) {
 
 // What the helper had reported when it was killed.
 struct Killed {
-  long cycles = 0;    // periods flushed by the third report
+  long cycles = 0;     // periods flushed by the third report
   double until = 0.0;  // time flushed up to, s
   bool ok = false;
 };
@@ -414,8 +415,8 @@ TEST(Hdf5Recorder, FileOfAKilledRunHoldsEveryFlushedPeriod) {
   const std::string path = (output_dir() / "killed.h5").string();
   // 100 periods of 0.5 ms between flushes: a flush (about a millisecond) is a small target for
   // the kill, which lands between flushes.
-  const Killed killed = run_and_kill({"--out", path, "--periods", "100000", "--flush-every",
-                                      "100", "--samples", "16", "--period-delay-us", "500"});
+  const Killed killed = run_and_kill({"--out", path, "--periods", "100000", "--flush-every", "100",
+                                      "--samples", "16", "--period-delay-us", "500"});
   ASSERT_TRUE(killed.ok);
   const long cycles = killed.cycles;
   const double until = killed.until;
@@ -511,8 +512,8 @@ TEST(Hdf5Recorder, FileOfAKilledRealEngineRunHoldsEveryFlushedPeriod) {
   const double T = testing::kBoostPeriodS;
   const std::string path = (output_dir() / "killed-boost.h5").string();
   const Killed killed =
-      run_and_kill({"--out", path, "--periods", "100000", "--flush-every", "100", "--samples",
-                    "16", "--period-delay-us", "500", "--source", "engine"});
+      run_and_kill({"--out", path, "--periods", "100000", "--flush-every", "100", "--samples", "16",
+                    "--period-delay-us", "500", "--source", "engine"});
   ASSERT_TRUE(killed.ok);
   const TraceFile trace(path);
   const TraceInfo& info = trace.info();

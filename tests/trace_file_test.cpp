@@ -23,7 +23,8 @@ using testing::SyntheticConverter;
 std::filesystem::path output_dir() {
   const auto* test = ::testing::UnitTest::GetInstance()->current_test_info();
   const std::filesystem::path dir = std::filesystem::path(PULSEWISE_BINARY_DIR) / "test-output" /
-                                    "trace" / (std::string(test->test_suite_name()) + "." + test->name());
+                                    "trace" /
+                                    (std::string(test->test_suite_name()) + "." + test->name());
   std::filesystem::remove_all(dir);
   std::filesystem::create_directories(dir);
   return dir;

@@ -23,8 +23,7 @@ void ExportOptions::validate() const {
   }
   if (!(start_s <= end_s)) {
     throw InputError(ErrorKind::kInvalidOption, "start_s",
-                     "the export window starts after it ends (or is NaN)",
-                     "give start_s <= end_s");
+                     "the export window starts after it ends (or is NaN)", "give start_s <= end_s");
   }
 }
 
@@ -45,10 +44,10 @@ class CsvWriter {
   void number(double value) {
     separate();
     char text[64];
-    const std::to_chars_result r =
-        precision_ == 0
-            ? std::to_chars(text, text + sizeof text, value)
-            : std::to_chars(text, text + sizeof text, value, std::chars_format::general, precision_);
+    const std::to_chars_result r = precision_ == 0
+                                       ? std::to_chars(text, text + sizeof text, value)
+                                       : std::to_chars(text, text + sizeof text, value,
+                                                       std::chars_format::general, precision_);
     out_.write(text, r.ptr - text);
   }
   void integer(long long value) {
@@ -110,9 +109,9 @@ std::vector<std::size_t> selected_signals(const TraceFile& trace, const ExportOp
     const int index = trace.find_signal(name);
     if (index < 0) {
       std::string known;
-      for (const TraceSignal& signal : info.signals) known += (known.empty() ? "" : ", ") + signal.name;
-      throw InputError(ErrorKind::kInvalidOption, name,
-                       "no signal of this name in the trace file",
+      for (const TraceSignal& signal : info.signals)
+        known += (known.empty() ? "" : ", ") + signal.name;
+      throw InputError(ErrorKind::kInvalidOption, name, "no signal of this name in the trace file",
                        "choose among: " + known, SourceLocation{info.path});
     }
     selected.push_back(static_cast<std::size_t>(index));
@@ -147,10 +146,9 @@ long export_waveforms(const TraceFile& trace, const std::vector<std::size_t>& se
 long export_cycles(const TraceFile& trace, const std::vector<std::size_t>& selected,
                    const ExportOptions& options, CsvWriter& csv) {
   const TraceInfo& info = trace.info();
-  for (const char* title :
-       {"index", "start_time [s]", "mode", "intervals", "D1", "D2", "D3", "pattern1", "pattern2",
-        "pattern3", "events", "energy_in [J]", "stored_energy_change [J]", "dissipated [J]",
-        "state_change"}) {
+  for (const char* title : {"index", "start_time [s]", "mode", "intervals", "D1", "D2", "D3",
+                            "pattern1", "pattern2", "pattern3", "events", "energy_in [J]",
+                            "stored_energy_change [J]", "dissipated [J]", "state_change"}) {
     csv.text(title);
   }
   for (std::size_t k : selected) {
@@ -167,8 +165,10 @@ long export_cycles(const TraceFile& trace, const std::vector<std::size_t>& selec
       csv.number(c.start_time_s);
       csv.text(layout::mode_name(c.mode));
       csv.integer(static_cast<long long>(c.intervals.size()));
-      for (std::size_t k = 0; k < 3; ++k) csv.number(k < c.intervals.size() ? c.intervals[k].fraction : 0.0);
-      for (std::size_t k = 0; k < 3; ++k) csv.hex(k < c.intervals.size() ? c.intervals[k].pattern : 0);
+      for (std::size_t k = 0; k < 3; ++k)
+        csv.number(k < c.intervals.size() ? c.intervals[k].fraction : 0.0);
+      for (std::size_t k = 0; k < 3; ++k)
+        csv.hex(k < c.intervals.size() ? c.intervals[k].pattern : 0);
       csv.integer(c.events);
       csv.number(c.energy_in_j);
       csv.number(c.stored_energy_change_j);
@@ -238,8 +238,9 @@ ExportResult export_csv(const std::string& trace_path, const std::string& out_di
     return rows;
   };
   if (options.waveforms) {
-    result.waveform_rows = write(
-        "waveforms.csv", [&](CsvWriter& csv) { return export_waveforms(trace, selected, options, csv); });
+    result.waveform_rows = write("waveforms.csv", [&](CsvWriter& csv) {
+      return export_waveforms(trace, selected, options, csv);
+    });
   }
   if (options.cycles) {
     result.cycle_rows = write(

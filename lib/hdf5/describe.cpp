@@ -26,7 +26,8 @@ std::string si(double value, const char* unit) {
 
 void describe_signals(std::ostringstream& out, const TraceInfo& info) {
   out << "signals (" << info.signals.size() << "):";
-  for (const TraceSignal& signal : info.signals) out << ' ' << signal.name << " [" << signal.unit << ']';
+  for (const TraceSignal& signal : info.signals)
+    out << ' ' << signal.name << " [" << signal.unit << ']';
   out << '\n';
 }
 
@@ -64,8 +65,8 @@ void describe_summary(std::ostringstream& out, const TraceInfo& info) {
     const char* unit = info.signals[k].unit.c_str();
     const SignalStats& stats = last.signals[k];
     out << "  " << info.signals[k].name << ": average " << si(stats.average, unit) << ", rms "
-        << si(stats.rms, unit) << ", min " << si(stats.min, unit) << ", max "
-        << si(stats.max, unit) << '\n';
+        << si(stats.rms, unit) << ", min " << si(stats.min, unit) << ", max " << si(stats.max, unit)
+        << '\n';
   }
 }
 
@@ -74,8 +75,8 @@ void describe_summary(std::ostringstream& out, const TraceInfo& info) {
 std::string describe(const TraceInfo& info) {
   std::ostringstream out;
   out << "trace file: " << info.path << " (" << kTraceFormatName << " version "
-      << info.format_version << ", pulsewise " << info.program_version << ", "
-      << info.created_utc << ")\n";
+      << info.format_version << ", pulsewise " << info.program_version << ", " << info.created_utc
+      << ")\n";
   out << "circuit: " << (info.circuit_name.empty() ? "(unnamed)" : info.circuit_name);
   if (!info.circuit_file.empty()) out << " from " << info.circuit_file;
   out << '\n';

@@ -275,8 +275,8 @@ AppendDataset::AppendDataset(H5::Group& group, const std::string& name,
   H5::DSetAccPropList access;
   const std::size_t chunk_size = static_cast<std::size_t>(chunk_rows) * row_bytes;
   access.setChunkCache(7, 2 * chunk_size + 1024, 1.0);
-  dataset_ = group.createDataSet(name, file_type, H5::DataSpace(rank, dims, max_dims), properties,
-                                 access);
+  dataset_ =
+      group.createDataSet(name, file_type, H5::DataSpace(rank, dims, max_dims), properties, access);
 }
 
 void AppendDataset::append(const void* data, std::size_t rows, const H5::DataType& memory_type) {

@@ -38,8 +38,7 @@ void write_attribute(H5::H5Object& object, const std::string& name,
 std::optional<std::string> read_string_attribute(const H5::H5Object& object,
                                                  const std::string& name);
 std::optional<double> read_double_attribute(const H5::H5Object& object, const std::string& name);
-std::optional<std::int64_t> read_int_attribute(const H5::H5Object& object,
-                                               const std::string& name);
+std::optional<std::int64_t> read_int_attribute(const H5::H5Object& object, const std::string& name);
 // Values in row-major order; columns receives the second dimension (1 for 1-D).
 std::optional<std::vector<double>> read_double_array_attribute(const H5::H5Object& object,
                                                                const std::string& name,

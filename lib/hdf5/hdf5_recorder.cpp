@@ -56,22 +56,21 @@ void check_directory(const std::string& path) {
   const std::filesystem::path parent = std::filesystem::path(path).parent_path();
   std::error_code error;
   if (!parent.empty() && !std::filesystem::is_directory(parent, error)) {
-    throw InputError(ErrorKind::kInvalidOption, "",
-                     "cannot create the trace file: directory '" + parent.string() +
-                         "' does not exist",
-                     "create the directory or give another output path", SourceLocation{path});
+    throw InputError(
+        ErrorKind::kInvalidOption, "",
+        "cannot create the trace file: directory '" + parent.string() + "' does not exist",
+        "create the directory or give another output path", SourceLocation{path});
   }
 }
 
 // The buffered rows of the per-cycle table, one vector per dataset.
 struct CycleRows {
   std::vector<std::int64_t> index, events;
-  std::vector<double> start_time_s, energy_in_j, stored_energy_change_j, dissipated_j,
-      state_change;
+  std::vector<double> start_time_s, energy_in_j, stored_energy_change_j, dissipated_j, state_change;
   std::vector<std::int8_t> mode;
   std::vector<std::int32_t> interval_count;
-  std::vector<double> fractions;        // kIntervalColumns per row
-  std::vector<std::uint64_t> patterns;  // kIntervalColumns per row
+  std::vector<double> fractions;               // kIntervalColumns per row
+  std::vector<std::uint64_t> patterns;         // kIntervalColumns per row
   std::vector<double> average, rms, min, max;  // signal_count per row
 
   std::size_t rows() const { return index.size(); }
@@ -186,10 +185,9 @@ void Hdf5Recorder::Impl::create_file() {
     file->flush(H5F_SCOPE_GLOBAL);
   } catch (const H5::Exception& e) {
     file.reset();
-    throw InputError(ErrorKind::kInvalidOption, "",
-                     "cannot create the trace file (" + h5::message_of(e) + ")",
-                     "check that the path is writable and not open in another program",
-                     SourceLocation{path});
+    throw InputError(
+        ErrorKind::kInvalidOption, "", "cannot create the trace file (" + h5::message_of(e) + ")",
+        "check that the path is writable and not open in another program", SourceLocation{path});
   }
 }
 
@@ -248,8 +246,8 @@ void Hdf5Recorder::Impl::create_layout(const std::vector<SignalInfo>& signals) {
   wave_chunks.rows_per_flush = static_cast<std::size_t>(recording.flush_every_periods) *
                                static_cast<std::size_t>(recording.samples_per_period + 4);
   wave_time = h5::AppendDataset(wave_group, "time_s", H5::PredType::IEEE_F64LE, 0, wave_chunks);
-  wave_values = h5::AppendDataset(wave_group, "values", H5::PredType::IEEE_F64LE, signal_count,
-                                  wave_chunks);
+  wave_values =
+      h5::AppendDataset(wave_group, "values", H5::PredType::IEEE_F64LE, signal_count, wave_chunks);
 
   H5::Group cycle_group = root.createGroup(layout::kCycles);
   create_cycle_datasets(cycle_group);
@@ -445,7 +443,8 @@ void Hdf5Recorder::Impl::write_summary(const RunSummary& summary) {
   h5::write_attribute(cycle, "start_time_s", last.start_time_s);
   h5::write_attribute(cycle, "mode", layout::mode_name(last.mode));
   std::vector<double> fractions, average, rms, min, max;
-  for (const ConfigurationInterval& interval : last.intervals) fractions.push_back(interval.fraction);
+  for (const ConfigurationInterval& interval : last.intervals)
+    fractions.push_back(interval.fraction);
   for (const SignalStats& stats : last.signals) {
     average.push_back(stats.average);
     rms.push_back(stats.rms);

@@ -77,7 +77,7 @@ ConductionMode mode_from_name(const std::string& name) {
   return ConductionMode::kNone;
 }
 
-CycleMetrics read_last_cycle(const H5::Group& group, std::size_t signal_count) {
+CycleMetrics read_last_cycle(const H5::Group& group) {
   CycleMetrics last;
   last.index = long_or(group, "index", 0);
   last.start_time_s = double_or(group, "start_time_s", 0.0);
@@ -95,7 +95,6 @@ CycleMetrics read_last_cycle(const H5::Group& group, std::size_t signal_count) {
   const std::vector<double> min = doubles_or_empty(group, "min");
   const std::vector<double> max = doubles_or_empty(group, "max");
   const std::size_t n = std::min({average.size(), rms.size(), min.size(), max.size()});
-  (void)signal_count;
   for (std::size_t k = 0; k < n; ++k) last.signals.push_back({average[k], rms[k], min[k], max[k]});
   return last;
 }
@@ -111,7 +110,7 @@ struct TraceFile::Impl {
   void open();
   void read_info();
   void read_signals(const H5::Group& root);
-  void read_counts(const H5::Group& root);
+  void read_counts();
   void read_summary(const H5::Group& root);
   std::size_t shortest(const char* group, std::initializer_list<const char*> names);
   H5::DataSet dataset(const std::string& name) const { return file->openDataSet(name); }
@@ -154,8 +153,7 @@ void TraceFile::Impl::read_info() {
   if (info.format_version < 1 || info.format_version > kTraceFormatVersion) {
     bad_file(path,
              "trace format version " + std::to_string(info.format_version) +
-                 " is not one this reader knows (1 .. " + std::to_string(kTraceFormatVersion) +
-                 ")",
+                 " is not one this reader knows (1 .. " + std::to_string(kTraceFormatVersion) + ")",
              "read it with the pulsewise version that wrote it (" +
                  string_or(root, "program_version", "unknown") + ")");
   }
@@ -187,12 +185,11 @@ void TraceFile::Impl::read_info() {
     return;
   }
   read_signals(root);
-  read_counts(root);
+  read_counts();
   read_summary(root);
 }
 
 void TraceFile::Impl::read_signals(const H5::Group& root) {
-  (void)root;
   const std::vector<std::string> names = h5::read_string_dataset(dataset("/signals/name"));
   const std::vector<std::string> units = h5::read_string_dataset(dataset("/signals/unit"));
   const H5::DataSet quantity = dataset("/signals/quantity");
@@ -203,13 +200,15 @@ void TraceFile::Impl::read_signals(const H5::Group& root) {
              "rerun the simulation to write the file again");
   }
   for (std::size_t k = 0; k < names.size(); ++k) {
-    info.signals.push_back(TraceSignal{names[k], units[k],
-                                       quantities[k] == static_cast<std::int8_t>(SignalQuantity::kCurrent)
-                                           ? SignalQuantity::kCurrent
-                                           : SignalQuantity::kVoltage});
+    info.signals.push_back(
+        TraceSignal{names[k], units[k],
+                    quantities[k] == static_cast<std::int8_t>(SignalQuantity::kCurrent)
+                        ? SignalQuantity::kCurrent
+                        : SignalQuantity::kVoltage});
   }
   info.windows = read_windows(file->openGroup(layout::kWaveforms));
-  if (has_link(root, "events/names")) event_names = h5::read_string_dataset(dataset("/events/names"));
+  if (has_link(root, "events/names"))
+    event_names = h5::read_string_dataset(dataset("/events/names"));
 }
 
 std::size_t TraceFile::Impl::shortest(const char* group, std::initializer_list<const char*> names) {
@@ -228,8 +227,7 @@ std::size_t TraceFile::Impl::shortest(const char* group, std::initializer_list<c
   return rows;
 }
 
-void TraceFile::Impl::read_counts(const H5::Group& root) {
-  (void)root;
+void TraceFile::Impl::read_counts() {
   const std::size_t columns = h5::column_count(dataset("/waveforms/values"));
   if (columns != info.signals.size()) {
     bad_file(path,
@@ -238,10 +236,10 @@ void TraceFile::Impl::read_counts(const H5::Group& root) {
              "rerun the simulation to write the file again");
   }
   info.waveform_rows = static_cast<long>(shortest(layout::kWaveforms, {"time_s", "values"}));
-  info.cycle_rows = static_cast<long>(shortest(
-      layout::kCycles, {"index", "start_time_s", "mode", "interval_count", "fractions", "patterns",
-                        "events", "energy_in_j", "stored_energy_change_j", "dissipated_j",
-                        "state_change", "average", "rms", "min", "max"}));
+  info.cycle_rows = static_cast<long>(
+      shortest(layout::kCycles, {"index", "start_time_s", "mode", "interval_count", "fractions",
+                                 "patterns", "events", "energy_in_j", "stored_energy_change_j",
+                                 "dissipated_j", "state_change", "average", "rms", "min", "max"}));
   info.event_rows = static_cast<long>(
       shortest(layout::kEvents, {"time_s", "kind", "element", "name_index", "pattern_after"}));
   if (info.waveform_rows > 0) {
@@ -263,7 +261,8 @@ void TraceFile::Impl::read_summary(const H5::Group& root) {
   summary.message = string_or(group, "message");
   summary.cycles = long_or(group, "cycles", 0);
   summary.events = long_or(group, "events", 0);
-  summary.configurations_built = static_cast<std::size_t>(long_or(group, "configurations_built", 0));
+  summary.configurations_built =
+      static_cast<std::size_t>(long_or(group, "configurations_built", 0));
   summary.cache_hits = static_cast<std::size_t>(long_or(group, "cache_hits", 0));
   summary.wall_time_s = double_or(group, "wall_time_s", 0.0);
   summary.end_time_s = double_or(group, "end_time_s", 0.0);
@@ -274,10 +273,10 @@ void TraceFile::Impl::read_summary(const H5::Group& root) {
   summary.state_names =
       h5::read_string_array_attribute(group, "state_names").value_or(std::vector<std::string>{});
   const std::vector<double> state = doubles_or_empty(group, "final_state");
-  summary.final_state = Eigen::Map<const Eigen::VectorXd>(state.data(),
-                                                          static_cast<Eigen::Index>(state.size()));
+  summary.final_state =
+      Eigen::Map<const Eigen::VectorXd>(state.data(), static_cast<Eigen::Index>(state.size()));
   if (has_link(root, "summary/last_cycle")) {
-    summary.last_cycle = read_last_cycle(file->openGroup(layout::kLastCycle), info.signals.size());
+    summary.last_cycle = read_last_cycle(file->openGroup(layout::kLastCycle));
   }
   if (has_link(root, "summary/startup")) {
     const H5::Group startup = file->openGroup(layout::kStartup);
@@ -363,8 +362,8 @@ std::vector<CycleMetrics> TraceFile::read_cycles(long first, long count) const {
     const auto intervals = read_column<std::int32_t>(f, "/cycles/interval_count", begin, n, 0,
                                                      H5::PredType::NATIVE_INT32);
     const auto fractions = read_column<double>(f, "/cycles/fractions", begin, n, d, f64);
-    const auto patterns = read_column<std::uint64_t>(f, "/cycles/patterns", begin, n, d,
-                                                     H5::PredType::NATIVE_UINT64);
+    const auto patterns =
+        read_column<std::uint64_t>(f, "/cycles/patterns", begin, n, d, H5::PredType::NATIVE_UINT64);
     const auto events = read_column<std::int64_t>(f, "/cycles/events", begin, n, 0, i64);
     const auto energy_in = read_column<double>(f, "/cycles/energy_in_j", begin, n, 0, f64);
     const auto stored = read_column<double>(f, "/cycles/stored_energy_change_j", begin, n, 0, f64);

@@ -71,8 +71,7 @@ H5::EnumType mode_type() {
 
 H5::EnumType event_kind_type() {
   return make_enum({EventKind::kGateEdge, EventKind::kSourceBreakpoint, EventKind::kDeviceTurnOn,
-                    EventKind::kDeviceTurnOff, EventKind::kForcedTurnOff,
-                    EventKind::kForcedTurnOn},
+                    EventKind::kDeviceTurnOff, EventKind::kForcedTurnOff, EventKind::kForcedTurnOn},
                    &event_kind_name);
 }
 

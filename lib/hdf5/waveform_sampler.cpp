@@ -10,8 +10,9 @@ namespace pulsewise::detail {
 std::vector<RecordingWindow> normalize_windows(std::vector<RecordingWindow> windows) {
   constexpr double kInf = std::numeric_limits<double>::infinity();
   if (windows.empty()) return {RecordingWindow{-kInf, kInf}};
-  std::sort(windows.begin(), windows.end(),
-            [](const RecordingWindow& a, const RecordingWindow& b) { return a.start_s < b.start_s; });
+  std::sort(windows.begin(), windows.end(), [](const RecordingWindow& a, const RecordingWindow& b) {
+    return a.start_s < b.start_s;
+  });
   std::vector<RecordingWindow> merged;
   for (const RecordingWindow& window : windows) {
     if (!merged.empty() && window.start_s <= merged.back().end_s) {

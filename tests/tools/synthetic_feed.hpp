@@ -101,8 +101,8 @@ struct SyntheticConverter {
   }
 
   RunInfo run_info(long periods) const {
-    return RunInfo{signals(), period_s, start_s,
-                   start_s + static_cast<double>(periods) * period_s, periods};
+    return RunInfo{signals(), period_s, start_s, start_s + static_cast<double>(periods) * period_s,
+                   periods};
   }
 
   RunSummary summary(long periods) const {
@@ -162,7 +162,8 @@ struct SyntheticConverter {
   void play_interval(Observer& observer, long k, bool on, double t0, double t1) const {
     for (int p = 0; p < pieces_per_interval; ++p) {
       const double a = t0 + (t1 - t0) * p / pieces_per_interval;
-      const double b = p + 1 == pieces_per_interval ? t1 : t0 + (t1 - t0) * (p + 1) / pieces_per_interval;
+      const double b =
+          p + 1 == pieces_per_interval ? t1 : t0 + (t1 - t0) * (p + 1) / pieces_per_interval;
       observer.on_piece(Piece(*this, k, on, a, b));
     }
   }

@@ -17,10 +17,10 @@
 #include <string_view>
 #include <thread>
 
+#include "boost_circuit.hpp"
 #include "pulsewise/circuit.hpp"
 #include "pulsewise/hdf5_recorder.hpp"
 #include "pulsewise/simulation.hpp"
-#include "boost_circuit.hpp"
 #include "synthetic_feed.hpp"
 
 namespace {
@@ -109,7 +109,8 @@ int main(int argc, char** argv) {
   const Arguments args = parse(argc, argv);
   const auto started = std::chrono::steady_clock::now();
   pulsewise::testing::SyntheticConverter synthetic;
-  const double period = args.source == "engine" ? pulsewise::testing::kBoostPeriodS : synthetic.period_s;
+  const double period =
+      args.source == "engine" ? pulsewise::testing::kBoostPeriodS : synthetic.period_s;
 
   pulsewise::RecordingOptions recording;
   recording.samples_per_period = args.samples;

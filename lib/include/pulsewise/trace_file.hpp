@@ -41,8 +41,8 @@ struct TraceInfo {
   std::string run_settings;
   std::vector<std::pair<std::string, std::string>> settings;
   double switching_period_s = 0.0;
-  double start_time_s = 0.0;    // run start, s
-  double end_time_s = 0.0;      // end of the run as asked for, s
+  double start_time_s = 0.0;  // run start, s
+  double end_time_s = 0.0;    // end of the run as asked for, s
   long periods_requested = 0;
   int samples_per_period = 0;
   long flush_every_periods = 0;
