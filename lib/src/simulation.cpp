@@ -117,8 +117,10 @@ struct Simulation::Impl {
   bool in_idle = false;
   int last_switch_off = -1;  // element index of the switch that opened last
   std::vector<double> output_averages;
-  std::vector<DevicePattern> visited;  // consistency search, reused to avoid allocation
-  Eigen::VectorXd u_new, du_new;       // apply_schedule scratch
+  std::vector<DevicePattern> visited;      // consistency search, reused to avoid allocation
+  Eigen::VectorXd u_new, du_new;           // apply_schedule scratch
+  Eigen::VectorXd mean, end_z, end_slope;  // moments of the current piece
+  Eigen::MatrixXd gram;
 
   Impl(const Circuit& circuit, SimulationOptions opts) : model(circuit), options(std::move(opts)) {
     options.validate();
@@ -173,6 +175,8 @@ struct Simulation::Impl {
         inductor_states.push_back(s);
     piece.resize(n_z);
     u_new = Eigen::VectorXd::Zero(n_u);
+    mean = end_z = end_slope = Eigen::VectorXd::Zero(n_z);
+    gram = Eigen::MatrixXd::Zero(n_z, n_z);
     du_new = Eigen::VectorXd::Zero(n_u);
     visited.reserve(64);
     z = Eigen::VectorXd::Zero(n_z);
@@ -276,6 +280,15 @@ struct Simulation::Impl {
       const int el = energy_elements[k].first;
       pd.energy.row(2 * k) = signal_row(cfg, model.element_voltage_signal(el));
       pd.energy.row(2 * k + 1) = signal_row(cfg, model.element_current_signal(el));
+    }
+    pd.power_forms.clear();
+    for (std::size_t k = 0; k < energy_elements.size(); ++k) {
+      const Eigen::RowVectorXd v = pd.energy.row(2 * k), i = pd.energy.row(2 * k + 1);
+      const EnergyTerm& term = energy_elements[k].second;
+      if (term.role == EnergyRole::kSeriesResistance)
+        pd.power_forms.push_back(term.resistance_ohm * i.transpose() * i);
+      else
+        pd.power_forms.push_back(0.5 * (v.transpose() * i + i.transpose() * v));
     }
     const double norm = pd.M.cwiseAbs().colwise().sum().maxCoeff();
     pd.max_step_s = norm > 0 ? options.max_step_norm / norm : kInf;
@@ -498,42 +511,61 @@ struct Simulation::Impl {
     return {which >= 0 ? best : -1.0, which};
   }
 
-  void accumulate_signals(double h) {
+  // Exact integrals, RMS, extrema and energies of the current piece from its moments: the mean
+  // of z gives every average, the Gram matrix of z every integral of a product (RMS, power), and
+  // only a signal whose slope changes sign inside the piece needs its own polynomial (for the
+  // interior extremum).
+  // c G c^T without temporaries.
+  static double quadratic_form(const Eigen::Ref<const Eigen::RowVectorXd>& c,
+                               const Eigen::MatrixXd& g) {
+    const Eigen::Index n = g.rows();
+    double sum = 0.0;
+    for (Eigen::Index j = 0; j < n; ++j) {
+      double column = 0.0;
+      for (Eigen::Index i = 0; i < n; ++i) column += g(i, j) * c[i];
+      sum += column * c[j];
+    }
+    return sum;
+  }
+
+  void accumulate_piece(double h) {
     const int order = piece.order();
-    piece.project(current->recorded, signal_coefficients);
-    double a[detail::TaylorPiece::kMaxOrder + 1];
+    // The Gram matrix costs about (K+1)^2 n; per-signal polynomials (K+1)^2 each. Energy
+    // accounting needs the Gram matrix anyway; without it, few signals go the direct way.
+    const bool use_gram =
+        options.energy_accounting || recorded.size() > static_cast<std::size_t>(n_z);
+    piece.moments(mean.data(), end_z.data(), end_slope.data(), use_gram ? gram.data() : nullptr);
+    const Eigen::Map<const Eigen::VectorXd> z0(piece.terms().data(), n_z);
+    const Eigen::Map<const Eigen::VectorXd> z1(piece.terms().data() + n_z, n_z);
+    if (!use_gram) piece.project(current->recorded, signal_coefficients);
     for (std::size_t j = 0; j < recorded.size(); ++j) {
-      for (int k = 0; k <= order; ++k) a[k] = signal_coefficients(j, k);
-      cycle.integral[j] += h * poly::integral(a, order);
-      cycle.square_integral[j] += h * poly::product_integral(a, a, order);
-      double lo = std::min(a[0], poly::eval(a, order, 1.0));
-      double hi = std::max(a[0], poly::eval(a, order, 1.0));
-      const double d0 = poly::derivative(a, order, 0.0), d1 = poly::derivative(a, order, 1.0);
-      if ((d0 < 0) != (d1 < 0) && d0 != 0 && d1 != 0) {
-        const double s = poly::stationary_point(a, order, 0.0, 1.0, 1e-15);
-        const double v = poly::eval(a, order, s);
+      const auto c = current->recorded.row(j);
+      cycle.integral[j] += h * c.dot(mean);
+      const double y0 = c.dot(z0), y1 = c.dot(end_z);
+      double lo = std::min(y0, y1), hi = std::max(y0, y1);
+      const double d0 = order >= 1 ? c.dot(z1) : 0.0, d1 = c.dot(end_slope);
+      const bool turns = (d0 < 0) != (d1 < 0) && d0 != 0 && d1 != 0;
+      double a[detail::TaylorPiece::kMaxOrder + 1];
+      if (!use_gram)
+        for (int k = 0; k <= order; ++k) a[k] = signal_coefficients(j, k);
+      else if (turns)
+        for (int k = 0; k <= order; ++k)
+          a[k] = c.dot(Eigen::Map<const Eigen::VectorXd>(piece.terms().data() + k * n_z, n_z));
+      cycle.square_integral[j] +=
+          h * (use_gram ? quadratic_form(c, gram) : poly::product_integral(a, a, order));
+      if (turns) {
+        const double v = poly::eval(a, order, poly::stationary_point(a, order, 0.0, 1.0, 1e-15));
         lo = std::min(lo, v);
         hi = std::max(hi, v);
       }
       cycle.min[j] = std::min(cycle.min[j], lo);
       cycle.max[j] = std::max(cycle.max[j], hi);
     }
-  }
-
-  void accumulate_energy(double h) {
-    const int order = piece.order();
-    piece.project(current->energy, energy_coefficients);
-    double v[detail::TaylorPiece::kMaxOrder + 1], i[detail::TaylorPiece::kMaxOrder + 1];
+    if (!options.energy_accounting) return;
     for (std::size_t k = 0; k < energy_elements.size(); ++k) {
-      for (int m = 0; m <= order; ++m) {
-        v[m] = energy_coefficients(2 * k, m);
-        i[m] = energy_coefficients(2 * k + 1, m);
-      }
-      const EnergyTerm& term = energy_elements[k].second;
-      const double e = term.role == EnergyRole::kSeriesResistance
-                           ? h * term.resistance_ohm * poly::product_integral(i, i, order)
-                           : h * poly::product_integral(v, i, order);
-      (term.role == EnergyRole::kSource ? cycle.energy_in : cycle.dissipated) += e;
+      const double e = h * current->power_forms[k].cwiseProduct(gram).sum();
+      (energy_elements[k].second.role == EnergyRole::kSource ? cycle.energy_in
+                                                             : cycle.dissipated) += e;
       cycle.element_energy[k] += e;
     }
   }
@@ -554,11 +586,11 @@ struct Simulation::Impl {
   }
 
   void finish_piece(double h) {
-    accumulate_signals(h);
-    if (options.energy_accounting) accumulate_energy(h);
+    accumulate_piece(h);
     track_inductor_peaks();
     record_interval(h);
     if (observer) {
+      piece.project(current->recorded, signal_coefficients);
       PolynomialPiece view;
       view.t0 = t;
       view.h = h;

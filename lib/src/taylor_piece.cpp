@@ -1,5 +1,7 @@
 #include "detail/taylor_piece.hpp"
 
+#include "detail/polynomial.hpp"
+
 #include <algorithm>
 #include <cmath>
 #include <limits>
@@ -105,6 +107,65 @@ void TaylorPiece::project(const Eigen::MatrixXd& rows, Eigen::MatrixXd& out) con
   dispatch(n, [&](auto size) {
     project_terms<decltype(size)::value>(rows.data(), r_count, terms_.data(), n, order_, out.data(),
                                          static_cast<int>(out.rows()));
+  });
+}
+
+namespace {
+
+template <int N>
+void piece_moments(const double* terms, int n_runtime, int order, double* mean, double* end,
+                   double* end_slope, double* gram) {
+  const int n = N > 0 ? N : n_runtime;
+  for (int i = 0; i < n; ++i) mean[i] = end[i] = end_slope[i] = 0.0;
+  const double* reciprocal = poly::kReciprocal.value;
+  for (int k = 0; k <= order; ++k) {
+    const double* z = terms + k * n;
+    const double w = reciprocal[k];
+    for (int i = 0; i < n; ++i) {
+      mean[i] += w * z[i];
+      end[i] += z[i];
+      end_slope[i] += k * z[i];
+    }
+  }
+  if (!gram) return;
+  for (int i = 0; i < n * n; ++i) gram[i] = 0.0;
+  double y[N > 0 ? N : 64];
+  for (int k = 0; k <= order; ++k) {
+    // y = sum_l z_l / (k + l + 1), then G += z_k y^T.
+    for (int i = 0; i < n; ++i) y[i] = 0.0;
+    for (int l = 0; l <= order; ++l) {
+      const double w = reciprocal[k + l];
+      const double* z = terms + l * n;
+      for (int i = 0; i < n; ++i) y[i] += w * z[i];
+    }
+    // G is symmetric: accumulate the upper triangle, mirror at the end.
+    const double* zk = terms + k * n;
+    for (int j = 0; j < n; ++j)
+      for (int i = 0; i <= j; ++i) gram[i + j * n] += zk[i] * y[j];
+  }
+  for (int j = 0; j < n; ++j)
+    for (int i = j + 1; i < n; ++i) gram[i + j * n] = gram[j + i * n];
+}
+
+}  // namespace
+
+void TaylorPiece::moments(double* mean, double* end, double* end_slope, double* gram) const {
+  const int n = static_cast<int>(terms_.rows());
+  if (n > 64) {  // the generic stack buffer holds 64; larger circuits take the plain sums
+    piece_moments<0>(terms_.data(), n, order_, mean, end, end_slope, nullptr);
+    if (gram) {
+      for (int i = 0; i < n * n; ++i) gram[i] = 0.0;
+      for (int k = 0; k <= order_; ++k)
+        for (int l = 0; l <= order_; ++l) {
+          const double w = 1.0 / (k + l + 1);
+          for (int j = 0; j < n; ++j)
+            for (int i = 0; i < n; ++i) gram[i + j * n] += w * terms_(i, k) * terms_(j, l);
+        }
+    }
+    return;
+  }
+  dispatch(n, [&](auto size) {
+    piece_moments<decltype(size)::value>(terms_.data(), n, order_, mean, end, end_slope, gram);
   });
 }
 

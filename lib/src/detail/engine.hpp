@@ -22,7 +22,9 @@ struct PatternData {
   Eigen::MatrixXd recorded;  // rows: recorded signals
   Eigen::MatrixXd events;    // rows: device conditions g >= 0 (one per diode)
   Eigen::MatrixXd energy;    // rows: (v, i) of each element taking part in the energy balance
-  double max_step_s = 0.0;   // sub-step bound from ||M||_1
+  // Power of each energy element as a quadratic form of z: p = z^T Q z (symmetric).
+  std::vector<Eigen::MatrixXd> power_forms;
+  double max_step_s = 0.0;  // sub-step bound from ||M||_1
   // ODE path: the nonlinear currents n enter as dz/dt += E n, y += F n, g += events_n n.
   Eigen::MatrixXd E, recorded_n, events_n, energy_n;
   Eigen::MatrixXd load_voltage_z, load_voltage_n;  // load voltages = Vz z + Vn n

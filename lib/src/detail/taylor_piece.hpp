@@ -37,6 +37,11 @@ class TaylorPiece {
   // functionals of the state. Plain loops: the matrices are tiny and a general product's
   // packing overhead dominates at these sizes.
   void project(const Eigen::MatrixXd& rows, Eigen::MatrixXd& out) const;
+  // Exact moments of the piece over s in [0, 1]: mean = sum z_k / (k+1) (the integral of z),
+  // end = z(1), end_slope = dz/ds at s = 1 = sum k z_k, and when gram is non-null the Gram
+  // matrix G = integral of z z^T = sum_{k,l} z_k z_l^T / (k+l+1) (n x n, column-major), from
+  // which the integral of any product of two linear functionals a.z and b.z is a^T G b.
+  void moments(double* mean, double* end, double* end_slope, double* gram) const;
   void state_at(double s, Eigen::Ref<Eigen::VectorXd> z) const;
   void end_state(Eigen::Ref<Eigen::VectorXd> z) const;
 
