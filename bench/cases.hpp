@@ -47,27 +47,29 @@ struct DcmBoost {
   static constexpr std::string_view kName = "case1";
   T vin = T(12.0), l = T(10e-6), c = T(47e-6), r = T(60.0);
   T rs = T(10e-3), rd = T(10e-3), vf = T(0.0);
+  // Reciprocals, so that the baselines divide as little as a hand-written program would.
+  T gs = 1 / rs, gd = 1 / rd, inv_l = 1 / l, inv_c = 1 / c, inv_r = 1 / r;
   double frequency_hz = 200e3;
   std::array<GateWindow, 1> gates{{{0.0, 0.3}}};
   static constexpr int kEdgeGrid = 10;  // every gate edge lies on a T/10 grid
 
   // Switch-node voltage; `cutset` true when both devices are open.
   T switch_node(unsigned sw, unsigned di, const T* x, bool& cutset) const {
-    const T gs = bit(sw, 0) ? 1 / rs : T(0), gd = bit(di, 0) ? 1 / rd : T(0);
-    cutset = gs + gd == 0;
-    return cutset ? vin : (x[0] + gd * (x[1] + vf)) / (gs + gd);
+    const T g_s = bit(sw, 0) ? gs : T(0), g_d = bit(di, 0) ? gd : T(0);
+    cutset = g_s + g_d == 0;
+    return cutset ? vin : (x[0] + g_d * (x[1] + vf)) / (g_s + g_d);
   }
   void derivative(unsigned sw, unsigned di, const T* x, T* dx) const {
     bool cutset = false;
     const T vs = switch_node(sw, di, x, cutset);
-    const T id = bit(di, 0) ? (vs - x[1] - vf) / rd : T(0);
-    dx[0] = cutset ? T(0) : (vin - vs) / l;
-    dx[1] = (id - x[1] / r) / c;
+    const T id = bit(di, 0) ? (vs - x[1] - vf) * gd : T(0);
+    dx[0] = cutset ? T(0) : (vin - vs) * inv_l;
+    dx[1] = (id - x[1] * inv_r) * inv_c;
   }
   T diode_margin(unsigned sw, unsigned di, int /*d*/, const T* x) const {
     bool cutset = false;
     const T vs = switch_node(sw, di, x, cutset);
-    if (bit(di, 0)) return (vs - x[1] - vf) / rd;
+    if (bit(di, 0)) return (vs - x[1] - vf) * gd;
     if (cutset && std::abs(x[0]) > kCutsetTolerance<T>) return x[0] > 0 ? -kHuge<T> : kHuge<T>;
     return vf - (vs - x[1]);
   }
@@ -85,14 +87,16 @@ struct SyncBuck {
   static constexpr std::string_view kName = "case2";
   T vin = T(12.0), l = T(2.2e-6), rl = T(5e-3), c = T(100e-6), r = T(0.5);
   T r_high = T(8e-3), r_low = T(5e-3), rd = T(20e-3), vf = T(0.7);
+  T g_high = 1 / r_high, g_low = 1 / r_low, gd = 1 / rd, inv_l = 1 / l, inv_c = 1 / c;
+  T inv_r = 1 / r;
   double frequency_hz = 500e3;
   // D = 9/32 and dead time T/64 (31.25 ns): every edge lies on a T/64 grid.
   std::array<GateWindow, 2> gates{{{0.0, 0.28125}, {0.28125 + 0.015625, 1.0 - 0.28125 - 0.03125}}};
   static constexpr int kEdgeGrid = 64;
 
   T switch_node(unsigned sw, unsigned di, const T* x, bool& cutset) const {
-    const T gh = bit(sw, 0) ? 1 / r_high : T(0), gl = bit(sw, 1) ? 1 / r_low : T(0);
-    const T gdh = bit(di, 0) ? 1 / rd : T(0), gdl = bit(di, 1) ? 1 / rd : T(0);
+    const T gh = bit(sw, 0) ? g_high : T(0), gl = bit(sw, 1) ? g_low : T(0);
+    const T gdh = bit(di, 0) ? gd : T(0), gdl = bit(di, 1) ? gd : T(0);
     const T g = gh + gl + gdh + gdl;
     cutset = g == 0;
     return cutset ? x[1] : (gh * vin + gdh * (vin + vf) - gdl * vf - x[0]) / g;
@@ -100,14 +104,14 @@ struct SyncBuck {
   void derivative(unsigned sw, unsigned di, const T* x, T* dx) const {
     bool cutset = false;
     const T vs = switch_node(sw, di, x, cutset);
-    dx[0] = cutset ? T(0) : (vs - rl * x[0] - x[1]) / l;
-    dx[1] = (x[0] - x[1] / r) / c;
+    dx[0] = cutset ? T(0) : (vs - rl * x[0] - x[1]) * inv_l;
+    dx[1] = (x[0] - x[1] * inv_r) * inv_c;
   }
   T diode_margin(unsigned sw, unsigned di, int d, const T* x) const {
     bool cutset = false;
     const T vs = switch_node(sw, di, x, cutset);
     const T v_ak = d == 0 ? vs - vin : -vs;
-    if (bit(di, d)) return (v_ak - vf) / rd;
+    if (bit(di, d)) return (v_ak - vf) * gd;
     if (cutset && std::abs(x[0]) > kCutsetTolerance<T>) {
       // Current into the load pulls the switch node down: the low-side diode must conduct.
       const bool forward = (x[0] > 0) == (d == 1);
@@ -133,36 +137,39 @@ struct InterleavedBuck {
   T cf2 = T(22e-6), r_damp = T(0.3), c_damp = T(100e-6);
   T lk = T(4.7e-6), rk = T(2e-3), rs = T(10e-3), rd = T(10e-3), vf = T(0.35);
   T cout = T(200e-6), r = T(0.2);
+  T gs = 1 / rs, gd = 1 / rd, g_damp = 1 / r_damp, inv_r = 1 / r, inv_lk = 1 / lk;
+  T inv_lf1 = 1 / lf1, inv_lf2 = 1 / lf2, inv_cf1 = 1 / cf1, inv_cf2 = 1 / cf2;
+  T inv_c_damp = 1 / c_damp, inv_cout = 1 / cout;
   double frequency_hz = 250e3;
   std::array<GateWindow, 4> gates{{{0.0, 0.3}, {0.25, 0.3}, {0.5, 0.3}, {0.75, 0.3}}};
   static constexpr int kEdgeGrid = 20;
 
   T phase_node(unsigned sw, unsigned di, int k, const T* x, bool& cutset) const {
-    const T gs = bit(sw, k) ? 1 / rs : T(0), gd = bit(di, k) ? 1 / rd : T(0);
-    cutset = gs + gd == 0;
-    return cutset ? x[9] : (gs * x[3] - gd * vf - x[5 + k]) / (gs + gd);
+    const T g_s = bit(sw, k) ? gs : T(0), g_d = bit(di, k) ? gd : T(0);
+    cutset = g_s + g_d == 0;
+    return cutset ? x[9] : (g_s * x[3] - g_d * vf - x[5 + k]) / (g_s + g_d);
   }
   void derivative(unsigned sw, unsigned di, const T* x, T* dx) const {
     T switch_current = 0, phase_current = 0;
     for (int k = 0; k < 4; ++k) {
       bool cutset = false;
       const T vs = phase_node(sw, di, k, x, cutset);
-      if (bit(sw, k)) switch_current += (x[3] - vs) / rs;
-      dx[5 + k] = cutset ? T(0) : (vs - rk * x[5 + k] - x[9]) / lk;
+      if (bit(sw, k)) switch_current += (x[3] - vs) * gs;
+      dx[5 + k] = cutset ? T(0) : (vs - rk * x[5 + k] - x[9]) * inv_lk;
       phase_current += x[5 + k];
     }
-    const T damp_current = (x[3] - x[4]) / r_damp;
-    dx[0] = (vin - rf1 * x[0] - x[1]) / lf1;
-    dx[1] = (x[0] - x[2]) / cf1;
-    dx[2] = (x[1] - rf2 * x[2] - x[3]) / lf2;
-    dx[3] = (x[2] - damp_current - switch_current) / cf2;
-    dx[4] = damp_current / c_damp;
-    dx[9] = (phase_current - x[9] / r) / cout;
+    const T damp_current = (x[3] - x[4]) * g_damp;
+    dx[0] = (vin - rf1 * x[0] - x[1]) * inv_lf1;
+    dx[1] = (x[0] - x[2]) * inv_cf1;
+    dx[2] = (x[1] - rf2 * x[2] - x[3]) * inv_lf2;
+    dx[3] = (x[2] - damp_current - switch_current) * inv_cf2;
+    dx[4] = damp_current * inv_c_damp;
+    dx[9] = (phase_current - x[9] * inv_r) * inv_cout;
   }
   T diode_margin(unsigned sw, unsigned di, int d, const T* x) const {
     bool cutset = false;
     const T vs = phase_node(sw, di, d, x, cutset);
-    if (bit(di, d)) return (-vs - vf) / rd;
+    if (bit(di, d)) return (-vs - vf) * gd;
     if (cutset && std::abs(x[5 + d]) > kCutsetTolerance<T>)
       return x[5 + d] > 0 ? -kHuge<T> : kHuge<T>;
     return vf + vs;
@@ -183,33 +190,35 @@ struct DcmSepic {
   static constexpr std::string_view kName = "case4";
   T vin = T(12.0), l1 = T(22e-6), r1 = T(20e-3), c1 = T(10e-6), l2 = T(22e-6), r2 = T(20e-3);
   T rs = T(20e-3), rd = T(20e-3), vf = T(0.4), cout = T(47e-6), r = T(50.0);
+  T gs = 1 / rs, gd = 1 / rd, inv_l1 = 1 / l1, inv_l2 = 1 / l2, inv_c1 = 1 / c1;
+  T inv_cout = 1 / cout, inv_r = 1 / r, idle_weight = 1 / (inv_l1 + inv_l2);
   double frequency_hz = 200e3;
   std::array<GateWindow, 1> gates{{{0.0, 0.3}}};
   static constexpr int kEdgeGrid = 10;
 
   T switch_node(unsigned sw, unsigned di, const T* x, bool& cutset) const {
-    const T gs = bit(sw, 0) ? 1 / rs : T(0), gd = bit(di, 0) ? 1 / rd : T(0);
-    cutset = gs + gd == 0;
-    if (!cutset) return (x[0] - x[2] + gd * (x[1] + x[3] + vf)) / (gs + gd);
+    const T g_s = bit(sw, 0) ? gs : T(0), g_d = bit(di, 0) ? gd : T(0);
+    cutset = g_s + g_d == 0;
+    if (!cutset) return (x[0] - x[2] + g_d * (x[1] + x[3] + vf)) / (g_s + g_d);
     // d(i1 - i2)/dt = 0 fixes the potential of the isolated pair of nodes.
-    return ((vin - r1 * x[0]) / l1 + (x[1] + r2 * x[2]) / l2) / (1 / l1 + 1 / l2);
+    return ((vin - r1 * x[0]) * inv_l1 + (x[1] + r2 * x[2]) * inv_l2) * idle_weight;
   }
   void derivative(unsigned sw, unsigned di, const T* x, T* dx) const {
     bool cutset = false;
     const T vs = switch_node(sw, di, x, cutset);
     const T vcx = vs - x[1];
-    const T is = bit(sw, 0) ? vs / rs : T(0);
-    const T id = bit(di, 0) ? (vcx - x[3] - vf) / rd : T(0);
-    dx[0] = (vin - r1 * x[0] - vs) / l1;
-    dx[1] = (x[0] - is) / c1;
-    dx[2] = (vcx - r2 * x[2]) / l2;
-    dx[3] = (id - x[3] / r) / cout;
+    const T is = bit(sw, 0) ? vs * gs : T(0);
+    const T id = bit(di, 0) ? (vcx - x[3] - vf) * gd : T(0);
+    dx[0] = (vin - r1 * x[0] - vs) * inv_l1;
+    dx[1] = (x[0] - is) * inv_c1;
+    dx[2] = (vcx - r2 * x[2]) * inv_l2;
+    dx[3] = (id - x[3] * inv_r) * inv_cout;
   }
   T diode_margin(unsigned sw, unsigned di, int /*d*/, const T* x) const {
     bool cutset = false;
     const T vs = switch_node(sw, di, x, cutset);
     const T v_ak = vs - x[1] - x[3];
-    if (bit(di, 0)) return (v_ak - vf) / rd;
+    if (bit(di, 0)) return (v_ak - vf) * gd;
     const T cutset_current = x[0] - x[2];
     if (cutset && std::abs(cutset_current) > kCutsetTolerance<T>)
       return cutset_current > 0 ? -kHuge<T> : kHuge<T>;

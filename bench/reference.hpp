@@ -214,8 +214,9 @@ class ReferenceSolver {
           which = d;
         }
       }
-      for (int k = 0; k < static_cast<int>(coefficients_.size()); ++k)
-        integral += coefficients_[k][Model::kOutput] * h * std::pow(s_end, T(k + 1)) / (k + 1);
+      T power = s_end;
+      for (int k = 0; k < static_cast<int>(coefficients_.size()); ++k, power *= s_end)
+        integral += coefficients_[k][Model::kOutput] * h * power / (k + 1);
       x = eval(coefficients_, s_end);
       const bool last = which < 0 && h == duration - done;
       done = last ? duration : done + s_end * h;
