@@ -322,6 +322,25 @@ TEST(Hdf5Recorder, ReleasesTheFileOnCloseWhileTheRecorderLives) {
   EXPECT_EQ(std::system(command.c_str()), 0) << command;
 }
 
+TEST(Hdf5Recorder, RecordsTheCycleTableOfARunWithNoRecordedSignals) {
+  const std::string path = (output_dir() / "no-signals.h5").string();
+  Hdf5Recorder recorder(path, RecordingOptions{});
+  recorder.on_start(RunInfo{{}, 1e-5, 0.0, 3e-5, 3});
+  for (long k = 0; k < 3; ++k) {
+    CycleMetrics cycle;
+    cycle.index = k;
+    cycle.start_time_s = 1e-5 * static_cast<double>(k);
+    recorder.on_cycle(cycle);
+  }
+  recorder.on_finish(RunSummary{});
+  recorder.close();
+  const TraceFile trace(path);
+  EXPECT_TRUE(trace.info().signals.empty());
+  EXPECT_EQ(trace.info().cycle_rows, 3);
+  EXPECT_TRUE(trace.info().warnings.empty());
+  EXPECT_EQ(trace.read_cycles(0, -1).back().index, 2);
+}
+
 TEST(Hdf5Options, DefaultsValidate) { EXPECT_NO_THROW(Hdf5Options{}.validate()); }
 
 TEST(Hdf5Options, RejectsADeflateLevelAboveNineNamingTheField) {

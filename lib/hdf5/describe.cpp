@@ -17,8 +17,12 @@ std::string si(double value, const char* unit) {
   static const char* const kPrefixes[] = {"f", "p", "n", "u", "m", "", "k", "M", "G"};
   int group = 0;
   if (value != 0.0) group = static_cast<int>(std::floor(std::log10(std::abs(value)) / 3.0));
-  group = std::clamp(group, -5, 3);
   char text[64];
+  if (group < -5 || group > 3) {
+    // Beyond the prefixes (rounding residue such as 1e-17 A): plain exponent form.
+    std::snprintf(text, sizeof text, "%.4g %s", value, unit);
+    return text;
+  }
   std::snprintf(text, sizeof text, "%.4g %s%s", value / std::pow(10.0, 3 * group),
                 kPrefixes[group + 5], unit);
   return text;

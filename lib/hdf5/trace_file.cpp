@@ -228,18 +228,27 @@ std::size_t TraceFile::Impl::shortest(const char* group, std::initializer_list<c
 }
 
 void TraceFile::Impl::read_counts() {
+  // A run with no recorded signals has empty per-signal datasets; only the others count rows.
+  const bool signals = !info.signals.empty();
   const std::size_t columns = h5::column_count(dataset("/waveforms/values"));
-  if (columns != info.signals.size()) {
+  if (signals && columns != info.signals.size()) {
     bad_file(path,
              "the trace file is damaged: /waveforms/values has " + std::to_string(columns) +
                  " columns for " + std::to_string(info.signals.size()) + " signals",
              "rerun the simulation to write the file again");
   }
-  info.waveform_rows = static_cast<long>(shortest(layout::kWaveforms, {"time_s", "values"}));
-  info.cycle_rows = static_cast<long>(
-      shortest(layout::kCycles, {"index", "start_time_s", "mode", "interval_count", "fractions",
-                                 "patterns", "events", "energy_in_j", "stored_energy_change_j",
-                                 "dissipated_j", "state_change", "average", "rms", "min", "max"}));
+  info.waveform_rows =
+      static_cast<long>(signals ? shortest(layout::kWaveforms, {"time_s", "values"})
+                                : shortest(layout::kWaveforms, {"time_s"}));
+  const std::initializer_list<const char*> cycle_columns = {
+      "index",       "start_time_s", "mode",        "interval_count",         "fractions",
+      "patterns",    "events",       "energy_in_j", "stored_energy_change_j", "dissipated_j",
+      "state_change"};
+  std::size_t cycle_rows = shortest(layout::kCycles, cycle_columns);
+  if (signals) {
+    cycle_rows = std::min(cycle_rows, shortest(layout::kCycles, {"average", "rms", "min", "max"}));
+  }
+  info.cycle_rows = static_cast<long>(cycle_rows);
   info.event_rows = static_cast<long>(
       shortest(layout::kEvents, {"time_s", "kind", "element", "name_index", "pattern_after"}));
   if (info.waveform_rows > 0) {
@@ -321,9 +330,13 @@ std::pair<std::size_t, std::size_t> clip(long first, long count, long total) {
   return {static_cast<std::size_t>(begin), static_cast<std::size_t>(end - begin)};
 }
 
+// Rows of a dataset, `width` values each (0: a 1-D dataset, one value per row). A per-signal
+// dataset of a run with no signals has width 0 in the caller's terms and reads nothing.
 template <class T>
 std::vector<T> read_column(const H5::H5File& file, const std::string& name, std::size_t first,
-                           std::size_t count, std::size_t width, const H5::DataType& type) {
+                           std::size_t count, std::size_t width, const H5::DataType& type,
+                           bool per_signal = false) {
+  if (per_signal && width == 0) return {};
   std::vector<T> values(count * std::max<std::size_t>(width, 1));
   h5::read_rows(file.openDataSet(name), first, count, type, values.data());
   return values;
@@ -339,8 +352,8 @@ WaveformBlock TraceFile::read_waveforms(long first, long count) const {
   try {
     const auto f64 = H5::PredType::NATIVE_DOUBLE;
     block.time_s = read_column<double>(*impl_->file, "/waveforms/time_s", begin, n, 0, f64);
-    block.values =
-        read_column<double>(*impl_->file, "/waveforms/values", begin, n, block.signal_count, f64);
+    block.values = read_column<double>(*impl_->file, "/waveforms/values", begin, n,
+                                       block.signal_count, f64, true);
   } catch (const H5::Exception& e) {
     damaged(impl_->path, "waveform rows " + std::to_string(begin) + " .. cannot be read", e);
   }
@@ -369,10 +382,10 @@ std::vector<CycleMetrics> TraceFile::read_cycles(long first, long count) const {
     const auto stored = read_column<double>(f, "/cycles/stored_energy_change_j", begin, n, 0, f64);
     const auto dissipated = read_column<double>(f, "/cycles/dissipated_j", begin, n, 0, f64);
     const auto change = read_column<double>(f, "/cycles/state_change", begin, n, 0, f64);
-    const auto average = read_column<double>(f, "/cycles/average", begin, n, s, f64);
-    const auto rms = read_column<double>(f, "/cycles/rms", begin, n, s, f64);
-    const auto min = read_column<double>(f, "/cycles/min", begin, n, s, f64);
-    const auto max = read_column<double>(f, "/cycles/max", begin, n, s, f64);
+    const auto average = read_column<double>(f, "/cycles/average", begin, n, s, f64, true);
+    const auto rms = read_column<double>(f, "/cycles/rms", begin, n, s, f64, true);
+    const auto min = read_column<double>(f, "/cycles/min", begin, n, s, f64, true);
+    const auto max = read_column<double>(f, "/cycles/max", begin, n, s, f64, true);
     for (std::size_t r = 0; r < n; ++r) {
       CycleMetrics& c = cycles[r];
       c.index = static_cast<long>(index[r]);
