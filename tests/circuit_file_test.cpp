@@ -10,9 +10,12 @@
 #include "pulsewise/simulation.hpp"
 
 #include <cmath>
+#include <cstdlib>
 #include <filesystem>
 #include <fstream>
 #include <initializer_list>
+#include <iostream>
+#include <random>
 #include <regex>
 #include <sstream>
 #include <string>
@@ -24,6 +27,14 @@ namespace {
 namespace fs = std::filesystem;
 
 using Lines = std::vector<std::string>;
+
+// The example circuits in data/.
+const char* const kExampleFiles[] = {
+    "sensor-node-boost.toml",
+    "rack-sync-buck.toml",
+    "display-bias-buckboost.toml",
+    "wide-input-sepic.toml",
+};
 
 std::string join(const Lines& lines) {
   std::string text;
@@ -461,6 +472,11 @@ TEST(CircuitFile, RejectsTomlSyntaxErrorAtItsLine) {
   EXPECT_NE(std::string(e.what()).find("not valid TOML"), std::string::npos);
 }
 
+// toml++ 3.3 asserts on this header in a debug build unless its assertions are off (toml.hpp).
+TEST(CircuitFile, RejectsATripleBracketHeaderAsASyntaxError) {
+  expect_error(replaced(22, "[[[capacitor]]"), {ErrorKind::kFileSyntax, 22, "", "TOML syntax"});
+}
+
 TEST(CircuitFile, RejectsUnknownKeyWithSuggestion) {
   const InputError e =
       expect_error(replaced(21, "inductanse = \"10 uH\""),
@@ -720,6 +736,61 @@ TEST(CircuitFile, RejectsACircuitWithNothingToSetTheSwitchingPeriod) {
   expect_error(text, {ErrorKind::kInvalidOption, 9, "", "switching_period = "});
 }
 
+TEST(CircuitFile, RejectsAFileWithoutElements) {
+  expect_error("[circuit]\nname = \"empty\"\n", {ErrorKind::kMissingKey, 1, "", "[[resistor]]"});
+  expect_error("", {ErrorKind::kMissingKey, 1, "", "[[inductor]]"});
+}
+
+// Random edits of the example files (delete, duplicate or replace a character, drop or repeat a
+// line) must give a loaded file or an InputError, never a crash or another exception. The seed
+// comes from PULSEWISE_TEST_SEED when set and is printed.
+TEST(CircuitFile, ThrowsOnlyInputErrorsForRandomlyDamagedFiles) {
+  const char* env = std::getenv("PULSEWISE_TEST_SEED");
+  const unsigned seed = env ? static_cast<unsigned>(std::strtoul(env, nullptr, 10)) : 20240611u;
+  std::cout << "PULSEWISE_TEST_SEED=" << seed << "\n";
+  std::mt19937 rng(seed);
+  const std::string alphabet = "[]{}=\",.#0123456789 \nabcxyzuHFVAs-e";
+  int rejected = 0;
+  int accepted = 0;
+  for (const char* name : kExampleFiles) {
+    std::ifstream in(std::string(PULSEWISE_SOURCE_DIR) + "/data/" + name);
+    std::stringstream buffer;
+    buffer << in.rdbuf();
+    const std::string original = buffer.str();
+    for (int trial = 0; trial < 300; ++trial) {
+      std::string text = original;
+      const int edits = 1 + static_cast<int>(rng() % 3);
+      for (int k = 0; k < edits && !text.empty(); ++k) {
+        const std::size_t at = rng() % text.size();
+        switch (rng() % 4) {
+          case 0: text.erase(at, 1); break;
+          case 1: text.insert(at, 1, text[at]); break;
+          case 2: text[at] = alphabet[rng() % alphabet.size()]; break;
+          default: {
+            const std::size_t begin = text.rfind('\n', at);
+            const std::size_t end = text.find('\n', at);
+            const std::size_t b = begin == std::string::npos ? 0 : begin + 1;
+            const std::string line = text.substr(b, end == std::string::npos ? end : end - b);
+            text.insert(b, line + "\n");
+          }
+        }
+      }
+      try {
+        parse_circuit_text(text, name);
+        ++accepted;
+      } catch (const InputError& e) {
+        ++rejected;
+        EXPECT_EQ(e.where().file, name) << e.what();
+        EXPECT_FALSE(e.fix().empty()) << e.what();
+      } catch (const std::exception& e) {
+        ADD_FAILURE() << "not an InputError: " << e.what() << "\n" << text;
+      }
+    }
+  }
+  std::cout << accepted << " damaged files still loaded, " << rejected << " were rejected\n";
+  EXPECT_GT(rejected, 0);
+}
+
 TEST(CircuitFile, RejectsAFileThatDoesNotExistNamingThePath) {
   const std::string path = (fs::temp_directory_path() / "pulsewise-no-such-file.toml").string();
   try {
@@ -752,13 +823,6 @@ TEST(CircuitFile, ResolvesARelativeTraceFileBesideTheCircuitFile) {
 }
 
 // --- the example circuits in data/ ------------------------------------------------------------
-
-const char* const kExampleFiles[] = {
-    "sensor-node-boost.toml",
-    "rack-sync-buck.toml",
-    "display-bias-buckboost.toml",
-    "wide-input-sepic.toml",
-};
 
 TEST(CircuitFile, LoadsEveryExampleCircuit) {
   for (const char* name : kExampleFiles) {

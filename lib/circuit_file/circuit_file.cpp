@@ -244,6 +244,13 @@ CircuitFile parse_circuit_text(std::string_view text, std::string path_label) {
   const std::vector<NamedPlace> gates = read_modulators(root, file, circuit);
   check_unique(modulator_places(circuit), "modulator");
   read_elements(root, file, circuit);
+  if (circuit.elements().empty()) {
+    throw InputError(
+        ErrorKind::kMissingKey, "", "the file defines no elements",
+        "add [[resistor]], [[inductor]], [[capacitor]], [[voltage_source]], ... blocks "
+        "(see docs/circuit-file.md)",
+        SourceLocation{file, 1, 1});
+  }
   check_unique(element_places(circuit), "element");
   check_elements_are_not_nodes(circuit);
   check_gates(circuit, gates);

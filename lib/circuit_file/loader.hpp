@@ -3,10 +3,10 @@
 // duplicate names) are checked once the whole file has been read.
 #pragma once
 
-#include <toml++/toml.h>
 #include <set>
 #include <string>
 #include <vector>
+#include "toml.hpp"
 
 #include "pulsewise/circuit.hpp"
 #include "pulsewise/recording.hpp"

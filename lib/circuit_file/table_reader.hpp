@@ -3,12 +3,12 @@
 // when the reader is made, so a misspelt required key is reported as a typo, not as missing.
 #pragma once
 
-#include <toml++/toml.h>
 #include <limits>
 #include <optional>
 #include <string>
 #include <string_view>
 #include <vector>
+#include "toml.hpp"
 
 #include "pulsewise/error.hpp"
 #include "pulsewise/si_value.hpp"
