@@ -30,6 +30,7 @@
 
 namespace {
 
+using pulsewise::CapacitorOptions;
 using pulsewise::Circuit;
 using pulsewise::ConductionMode;
 using pulsewise::CycleMetrics;
@@ -38,7 +39,6 @@ using pulsewise::DiodeOptions;
 using pulsewise::EventKind;
 using pulsewise::EventRecord;
 using pulsewise::InductorOptions;
-using pulsewise::CapacitorOptions;
 using pulsewise::Observer;
 using pulsewise::PieceView;
 using pulsewise::PwmModulator;
@@ -107,7 +107,9 @@ struct Mat2 {
 struct Vec2 {
   Real x, y;
 };
-Vec2 operator*(const Mat2& m, const Vec2& v) { return {m.a * v.x + m.b * v.y, m.c * v.x + m.d * v.y}; }
+Vec2 operator*(const Mat2& m, const Vec2& v) {
+  return {m.a * v.x + m.b * v.y, m.c * v.x + m.d * v.y};
+}
 Vec2 operator+(const Vec2& p, const Vec2& q) { return {p.x + q.x, p.y + q.y}; }
 Vec2 operator-(const Vec2& p, const Vec2& q) { return {p.x - q.x, p.y - q.y}; }
 
@@ -197,8 +199,12 @@ TEST(RcCircuit, ChargingMatchesExponentialClosedFormToTenDigits) {
   ASSERT_TRUE(summary.ok()) << summary.message;
   ASSERT_EQ(rec.samples.size(), times.size());
 
-  auto v_exact = [&](Real t) { return t < t0 ? Real(0) : v_step * (1 - std::exp(-(t - t0) / tau)); };
-  auto i_exact = [&](Real t) { return t < t0 ? Real(0) : (v_step / Real(r)) * std::exp(-(t - t0) / tau); };
+  auto v_exact = [&](Real t) {
+    return t < t0 ? Real(0) : v_step * (1 - std::exp(-(t - t0) / tau));
+  };
+  auto i_exact = [&](Real t) {
+    return t < t0 ? Real(0) : (v_step / Real(r)) * std::exp(-(t - t0) / tau);
+  };
   double worst_v = 0, worst_i = 0;
   for (std::size_t k = 0; k < times.size(); ++k) {
     const double ev = std::abs(double(rec.samples[k][0] - v_exact(times[k]))) / v_step;
@@ -215,19 +221,20 @@ TEST(RcCircuit, ChargingMatchesExponentialClosedFormToTenDigits) {
     if (b > a) {
       const Real ea = std::exp(-(a - t0) / tau), eb = std::exp(-(b - t0) / tau);
       integral = v_step * ((b - a) - tau * (ea - eb));
-      square = Real(v_step) * v_step *
-               ((b - a) - 2 * tau * (ea - eb) + tau / 2 * (ea * ea - eb * eb));
+      square =
+          Real(v_step) * v_step * ((b - a) - 2 * tau * (ea - eb) + tau / 2 * (ea * ea - eb * eb));
     }
     const double ea = std::abs(double(cycle.signals[0].average - integral / period)) / v_step;
-    const double er =
-        std::abs(double(cycle.signals[0].rms - std::sqrt(square / period))) / v_step;
+    const double er = std::abs(double(cycle.signals[0].rms - std::sqrt(square / period))) / v_step;
     EXPECT_LT(ea, 1e-10) << "cycle " << cycle.index;
     EXPECT_LT(er, 1e-10) << "cycle " << cycle.index;
     worst_average = std::max(worst_average, ea);
     worst_rms = std::max(worst_rms, er);
   }
-  std::printf("[ RC charging ] worst relative error: v %.2e, i %.2e, cycle average %.2e, "
-              "cycle RMS %.2e\n", worst_v, worst_i, worst_average, worst_rms);
+  std::printf(
+      "[ RC charging ] worst relative error: v %.2e, i %.2e, cycle average %.2e, "
+      "cycle RMS %.2e\n",
+      worst_v, worst_i, worst_average, worst_rms);
   RecordProperty("worst_waveform_error", std::to_string(std::max(worst_v, worst_i)));
 }
 
@@ -241,7 +248,8 @@ struct RlcCase {
 // Series R-L-C driven by a step of V at t0, zero initial state (Alexander & Sadiku ch. 8, step
 // response of a series RLC circuit): alpha = R / 2L, w0 = 1 / sqrt(LC).
 //   underdamped (alpha < w0), wd = sqrt(w0^2 - alpha^2):
-//     i = V / (wd L) e^-alpha s sin wd s,  v_C = V [1 - e^-alpha s (cos wd s + alpha / wd sin wd s)]
+//     i = V / (wd L) e^-alpha s sin wd s,  v_C = V [1 - e^-alpha s (cos wd s + alpha / wd sin wd
+//     s)]
 //   overdamped, s1,2 = -alpha +- sqrt(alpha^2 - w0^2):
 //     i = V / (L (s1 - s2)) (e^s1 s - e^s2 s),  v_C = V [1 - (s1 e^s2 s - s2 e^s1 s) / (s1 - s2)]
 void check_rlc(const RlcCase& rc) {
@@ -285,8 +293,10 @@ void check_rlc(const RlcCase& rc) {
     worst_v = std::max(worst_v, ev);
     worst_i = std::max(worst_i, ei);
   }
-  std::printf("[ series RLC, %s ] %zu samples, %zu pieces: worst relative error v_C %.2e, "
-              "i %.2e\n", rc.name, times.size(), rec.pieces.size(), worst_v, worst_i);
+  std::printf(
+      "[ series RLC, %s ] %zu samples, %zu pieces: worst relative error v_C %.2e, "
+      "i %.2e\n",
+      rc.name, times.size(), rec.pieces.size(), worst_v, worst_i);
   ::testing::Test::RecordProperty("worst_error", std::to_string(std::max(worst_v, worst_i)));
 }
 
@@ -330,14 +340,14 @@ void check_rl_turn_off(double winding_ohm) {
   // its value at the turn-off (DESIGN.md): zero up to the rounding of the located crossing,
   // 64 * epsilon * I0.
   EXPECT_LE(std::abs(summary.final_state[0]), 64 * std::numeric_limits<double>::epsilon() * i0);
-  std::printf("[ RL discharge, R = %g ohm ] t* = %.15e s, found %.15e s, error %.2e of the "
-              "period\n", winding_ohm, double(t_star), off[0].time_s, error);
+  std::printf(
+      "[ RL discharge, R = %g ohm ] t* = %.15e s, found %.15e s, error %.2e of the "
+      "period\n",
+      winding_ohm, double(t_star), off[0].time_s, error);
   ::testing::Test::RecordProperty("event_time_error", std::to_string(error));
 }
 
-TEST(RlDischarge, DiodeTurnsOffAtLTimesI0OverVToTwelveDigitsOfThePeriod) {
-  check_rl_turn_off(0.0);
-}
+TEST(RlDischarge, DiodeTurnsOffAtLTimesI0OverVToTwelveDigitsOfThePeriod) { check_rl_turn_off(0.0); }
 
 TEST(RlDischarge, DiodeWithWindingResistanceTurnsOffAtLogarithmicTimeToTwelveDigits) {
   check_rl_turn_off(0.5);
@@ -405,8 +415,10 @@ TEST(BoostIntoBattery, PeakCurrentAndIntervalsAreExactWhateverTheSubStepCount) {
     EXPECT_LT(e_peak, 1e-12) << substeps << " sub-steps per period";
     EXPECT_LT(e_d2, 1e-12) << substeps << " sub-steps per period";
     EXPECT_LT(e_average, 1e-12) << substeps << " sub-steps per period";
-    std::printf("[ boost into battery, period 300, %4d sub-steps ] errors: peak %.2e, D2 %.2e, "
-                "average %.2e\n", substeps, e_peak, e_d2, e_average);
+    std::printf(
+        "[ boost into battery, period 300, %4d sub-steps ] errors: peak %.2e, D2 %.2e, "
+        "average %.2e\n",
+        substeps, e_peak, e_d2, e_average);
   }
 }
 
@@ -479,8 +491,10 @@ TEST(RingingTank, BothCrossingsOfAnEventFunctionInsideOneSubStepAreFound) {
   pulsewise::CircuitModel model(circuit);
   const auto& cfg = model.configuration(0);
   double norm = 0;
-  for (Eigen::Index j = 0; j < cfg.A.cols(); ++j) norm = std::max(norm, cfg.A.col(j).cwiseAbs().sum());
-  for (Eigen::Index j = 0; j < cfg.B.cols(); ++j) norm = std::max(norm, cfg.B.col(j).cwiseAbs().sum());
+  for (Eigen::Index j = 0; j < cfg.A.cols(); ++j)
+    norm = std::max(norm, cfg.A.col(j).cwiseAbs().sum());
+  for (Eigen::Index j = 0; j < cfg.B.cols(); ++j)
+    norm = std::max(norm, cfg.B.col(j).cwiseAbs().sum());
   const double sub_step = std::min(period, options.max_step_norm / norm);
   ASSERT_GT(g_off(0), 0);
   ASSERT_GT(g_off(sub_step), 0);
@@ -506,10 +520,10 @@ TEST(RingingTank, BothCrossingsOfAnEventFunctionInsideOneSubStepAreFound) {
   // moves a crossing by 1e-14 V / |v'| with |v'| >= 1e4 V/s here, i.e. ~1e-18 s = 2.5e-13 Ts.
   EXPECT_LT(e1, 1e-12);
   EXPECT_LT(e2, 1e-12);
-  std::printf("[ ringing tank ] sub-step %.3e s; dip of the open-diode function from %.6e to "
-              "%.6e s; turn-on %.15e s (error %.2e Ts), turn-off %.15e s (error %.2e Ts)\n",
-              sub_step, double(t1), double(t1_back), turn_on[0].time_s, e1, turn_off[0].time_s,
-              e2);
+  std::printf(
+      "[ ringing tank ] sub-step %.3e s; dip of the open-diode function from %.6e to "
+      "%.6e s; turn-on %.15e s (error %.2e Ts), turn-off %.15e s (error %.2e Ts)\n",
+      sub_step, double(t1), double(t1_back), turn_on[0].time_s, e1, turn_off[0].time_s, e2);
   RecordProperty("turn_on_error", std::to_string(e1));
   RecordProperty("turn_off_error", std::to_string(e2));
 }
@@ -520,8 +534,7 @@ TEST(RingingTank, BothCrossingsOfAnEventFunctionInsideOneSubStepAreFound) {
 // diode forward drop.
 struct LossyBoost {
   double vg = 12.0, inductance_h = 22e-6, dcr_ohm = 0.08, switch_ohm = 0.03, diode_ohm = 0.02,
-         forward_v = 0.6, capacitance_f = 47e-6, esr_ohm = 0.05, frequency_hz = 100e3,
-         duty = 0.45;
+         forward_v = 0.6, capacitance_f = 47e-6, esr_ohm = 0.05, frequency_hz = 100e3, duty = 0.45;
   Circuit circuit(double load_ohm) const {
     Circuit c("lossy boost");
     c.add_voltage_source("Vg", "in", "0", Waveform::constant(vg))
@@ -547,8 +560,8 @@ struct LossyBoost {
 void check_energy(double load_ohm, const char* label) {
   const LossyBoost b;
   const double period = 1 / b.frequency_hz;
-  const std::vector<std::string> signals = {"Vg.i", "L1.i", "C1.v", "C1.i", "Rload.i", "S1.i",
-                                            "D1.i"};
+  const std::vector<std::string> signals = {"Vg.i",    "L1.i", "C1.v", "C1.i",
+                                            "Rload.i", "S1.i", "D1.i"};
   Recorder rec;
   SimulationOptions options = run_options(0.0, 400, signals);
   Simulation sim(b.circuit(load_ohm), options);
@@ -562,7 +575,8 @@ void check_energy(double load_ohm, const char* label) {
   std::vector<double> stored_at_start;
   std::size_t piece = 0;
   for (const auto& cycle : rec.cycles) {
-    while (piece < rec.pieces.size() && rec.pieces[piece].t_begin < cycle.start_time_s - 1e-9 * period)
+    while (piece < rec.pieces.size() &&
+           rec.pieces[piece].t_begin < cycle.start_time_s - 1e-9 * period)
       ++piece;
     ASSERT_LT(piece, rec.pieces.size());
     stored_at_start.push_back(stored(rec.piece_start_values[piece]));
@@ -602,10 +616,11 @@ void check_energy(double load_ohm, const char* label) {
     worst_diss = std::max(worst_diss, e_diss);
     worst_stored = std::max(worst_stored, e_stored);
   }
-  std::printf("[ energy, %s ] %zu periods from rest (DCM seen %d, CCM seen %d): worst |E_in - dW - "
-              "E_diss| / E = %.2e; recomputed E_in %.2e, E_diss %.2e, dW %.2e\n",
-              label, rec.cycles.size(), saw_dcm, saw_ccm, worst_balance, worst_in, worst_diss,
-              worst_stored);
+  std::printf(
+      "[ energy, %s ] %zu periods from rest (DCM seen %d, CCM seen %d): worst |E_in - dW - "
+      "E_diss| / E = %.2e; recomputed E_in %.2e, E_diss %.2e, dW %.2e\n",
+      label, rec.cycles.size(), saw_dcm, saw_ccm, worst_balance, worst_in, worst_diss,
+      worst_stored);
   ::testing::Test::RecordProperty("worst_balance", std::to_string(worst_balance));
 }
 
@@ -673,8 +688,8 @@ TEST(Invariance, ResultsAgreeToTwelveDigitsWhateverSubStepsAndCache) {
   // a random walk; published figure 1e-12.
   const Circuit circuit = LossyBoost{}.circuit(60.0);
   const Fingerprint reference = fingerprint(circuit, 1, true);
-  for (const auto& [substeps, cache] :
-       std::vector<std::pair<int, bool>>{{8, true}, {64, true}, {1, false}, {8, false}, {64, false}}) {
+  for (const auto& [substeps, cache] : std::vector<std::pair<int, bool>>{
+           {8, true}, {64, true}, {1, false}, {8, false}, {64, false}}) {
     SCOPED_TRACE("substeps_per_period = " + std::to_string(substeps) +
                  (cache ? ", cache on" : ", cache off"));
     const Fingerprint f = fingerprint(circuit, substeps, cache);
@@ -684,13 +699,15 @@ TEST(Invariance, ResultsAgreeToTwelveDigitsWhateverSubStepsAndCache) {
     for (std::size_t k = 0; k < f.values.size(); ++k)
       worst = std::max(worst, std::abs(f.values[k] - reference.values[k]) / reference.scales[k]);
     EXPECT_LT(worst, 1e-12);
-    std::printf("[ invariance ] substeps %2d, cache %-3s: %zu figures, worst relative difference "
-                "from substeps 1 / cache on: %.2e\n",
-                substeps, cache ? "on" : "off", f.values.size(), worst);
+    std::printf(
+        "[ invariance ] substeps %2d, cache %-3s: %zu figures, worst relative difference "
+        "from substeps 1 / cache on: %.2e\n",
+        substeps, cache ? "on" : "off", f.values.size(), worst);
   }
 }
 
-// ---- exact open versus large finite off-resistance -----------------------------------------------
+// ---- exact open versus large finite off-resistance
+// -----------------------------------------------
 
 TEST(OpenDevices, FiniteOffResistanceConvergesToExactOpenAsItGrows) {
   // A device that is off with resistance R_off leaks currents of order V / R_off, so every
@@ -732,8 +749,10 @@ TEST(OpenDevices, FiniteOffResistanceConvergesToExactOpenAsItGrows) {
     const double d_state = (finite.final_state - open.final_state).cwiseAbs().maxCoeff() /
                            open.final_state.cwiseAbs().maxCoeff();
     const double difference = std::max(d_sw, d_state);
-    std::printf("[ open limit ] R_off = %.0e ohm: |d avg(sw.v)| / Vg = %.2e, |d x| / |x| = %.2e, "
-                "%ld events\n", off_ohm, d_sw, d_state, finite.events);
+    std::printf(
+        "[ open limit ] R_off = %.0e ohm: |d avg(sw.v)| / Vg = %.2e, |d x| / |x| = %.2e, "
+        "%ld events\n",
+        off_ohm, d_sw, d_state, finite.events);
     if (previous > 0) {
       // First order: a tenfold R_off divides the difference by about ten; at least five.
       EXPECT_LT(difference, previous / 5) << "R_off = " << off_ohm;
@@ -743,7 +762,8 @@ TEST(OpenDevices, FiniteOffResistanceConvergesToExactOpenAsItGrows) {
   EXPECT_LT(previous, 1e-4);  // at 1e6 ohm: leakage 12 V / 1e6 ohm against amperes
 }
 
-// ---- synchronous buck with dead time ---------------------------------------------------------------
+// ---- synchronous buck with dead time
+// ---------------------------------------------------------------
 
 // Half bridge: high switch in->sw, low switch sw->0, each with a body diode; L1 sw->out, C1, R.
 Circuit buck(bool synchronous, double load_ohm, double dead_time_s) {
@@ -763,7 +783,9 @@ Circuit buck(bool synchronous, double load_ohm, double dead_time_s) {
         .add_diode("Dlow", "0", "sw", body)
         .add_modulator(bridge);
   } else {
-    c.add_switch("Shigh", "in", "sw", "pwm", sw).add_diode("Dlow", "0", "sw", body).add_modulator(pwm(100e3, 0.4));
+    c.add_switch("Shigh", "in", "sw", "pwm", sw)
+        .add_diode("Dlow", "0", "sw", body)
+        .add_modulator(pwm(100e3, 0.4));
   }
   c.add_inductor("L1", "sw", "out", 10e-6)
       .add_capacitor("C1", "out", "0", 22e-6)
@@ -774,7 +796,8 @@ Circuit buck(bool synchronous, double load_ohm, double dead_time_s) {
 DevicePattern bit_of(const Simulation& sim, const std::string& element) {
   const auto& devices = sim.model().devices();
   for (std::size_t bit = 0; bit < devices.size(); ++bit)
-    if (sim.model().circuit().elements()[devices[bit]].name == element) return DevicePattern{1} << bit;
+    if (sim.model().circuit().elements()[devices[bit]].name == element)
+      return DevicePattern{1} << bit;
   ADD_FAILURE() << "no device " << element;
   return 0;
 }
@@ -849,8 +872,10 @@ TEST(SynchronousBuck, BodyDiodesConductDuringTheDeadTimes) {
   }
   EXPECT_EQ(on_low, 1);
   EXPECT_EQ(on_high, 1);
-  std::printf("[ dead time ] last period: %d piece(s) with only Dlow on after the high edge, %d "
-              "with only Dhigh on before the period end\n", first_dead, second_dead);
+  std::printf(
+      "[ dead time ] last period: %d piece(s) with only Dlow on after the high edge, %d "
+      "with only Dhigh on before the period end\n",
+      first_dead, second_dead);
 }
 
 }  // namespace

@@ -221,8 +221,8 @@ Eigen::VectorXd periodic_state(const Circuit& circuit, Eigen::VectorXd x0) {
 
 struct SteadyState {
   RunSummary summary;
-  double average = 0.0;     // output voltage, V
-  double ripple = 0.0;      // output peak-to-peak / |average|
+  double average = 0.0;      // output voltage, V
+  double ripple = 0.0;       // output peak-to-peak / |average|
   double inductor_pp = 0.0;  // inductor current peak-to-peak, A
   double output_pp = 0.0;    // output voltage peak-to-peak, V
 };
@@ -271,10 +271,10 @@ void check_grid(Topology topology) {
 
       Simulation sim(converter(topology, duty, inductance_h, kOutputFarad),
                      steady_state_options({"out.v", "L1.i"}));
-      sim.set_initial_state(periodic_state(
-          sim.model().circuit(),
-          state_of(sim, {{"L1", start_current(topology, duty, inductance_h, m, ccm)},
-                         {"C1", m * kInputV}})));
+      sim.set_initial_state(
+          periodic_state(sim.model().circuit(),
+                         state_of(sim, {{"L1", start_current(topology, duty, inductance_h, m, ccm)},
+                                        {"C1", m * kInputV}})));
       const SteadyState s = run_to_steady_state(sim);
       ASSERT_EQ(s.summary.end, pulsewise::RunEnd::kSteadyState) << s.summary.message;
       periods += s.summary.cycles;
@@ -282,16 +282,17 @@ void check_grid(Topology topology) {
       const double error = std::abs(s.average / (m * kInputV) - 1.0);
       worst_ripple = std::max(worst_ripple, s.ripple);
       if (s.ripple < kRippleBound) {
-        EXPECT_LT(error, kAverageTolerance) << "simulated " << s.average << " V, E&M "
-                                            << m * kInputV << " V";
+        EXPECT_LT(error, kAverageTolerance)
+            << "simulated " << s.average << " V, E&M " << m * kInputV << " V";
         worst_average = std::max(worst_average, error);
         ++checked_average;
       }
       const auto mode = s.summary.last_cycle.mode;
-      std::printf("  %-10s D = %.2f  K/Kcrit = %.2f  M_E&M = %+9.6f  M = %+9.6f  error = %.2e"
-                  "  ripple = %.2e  %s\n",
-                  name_of(topology), duty, ratio, m, s.average / kInputV, error, s.ripple,
-                  pulsewise::to_string(mode));
+      std::printf(
+          "  %-10s D = %.2f  K/Kcrit = %.2f  M_E&M = %+9.6f  M = %+9.6f  error = %.2e"
+          "  ripple = %.2e  %s\n",
+          name_of(topology), duty, ratio, m, s.average / kInputV, error, s.ripple,
+          pulsewise::to_string(mode));
       if (std::abs(ratio - 1.0) > kModeBand) {
         EXPECT_EQ(mode, ccm ? ConductionMode::kCcm : ConductionMode::kDcm)
             << "got " << pulsewise::to_string(mode);
@@ -318,9 +319,10 @@ void check_grid(Topology topology) {
   // The check must not pass vacuously: every grid point is designed below the ripple bound.
   EXPECT_EQ(checked_average, static_cast<int>(kDuties.size() * kRatios.size()));
   EXPECT_EQ(checked_mode, static_cast<int>(kDuties.size() * kRatios.size()));
-  std::printf("[ %s grid ] %d points, worst |M/M_E&M - 1| = %.3e, worst |D2/D2_E&M - 1| = %.3e, "
-              "worst output ripple = %.3e, %ld periods simulated\n",
-              name_of(topology), checked_average, worst_average, worst_d2, worst_ripple, periods);
+  std::printf(
+      "[ %s grid ] %d points, worst |M/M_E&M - 1| = %.3e, worst |D2/D2_E&M - 1| = %.3e, "
+      "worst output ripple = %.3e, %ld periods simulated\n",
+      name_of(topology), checked_average, worst_average, worst_d2, worst_ripple, periods);
   ::testing::Test::RecordProperty("worst_average_error", std::to_string(worst_average));
   ::testing::Test::RecordProperty("worst_d2_error", std::to_string(worst_d2));
 }
@@ -384,11 +386,11 @@ TEST(CukConverter, MatchesEricksonMaksimovicCcmRatio) {
     Simulation sim(cuk(duty), steady_state_options({"out.v", "L1.i", "C1.v", "L2.i"}));
     // Averages of the ideal converter: L2 carries the load current, L1 the input current
     // (power balance), C1 holds Vg - V.
-    sim.set_initial_state(periodic_state(
-        sim.model().circuit(), state_of(sim, {{"L1", v * v / (kLoadOhm * kInputV)},
-                                              {"L2", v / kLoadOhm},
-                                              {"C1", kInputV - v},
-                                              {"C2", v}})));
+    sim.set_initial_state(
+        periodic_state(sim.model().circuit(), state_of(sim, {{"L1", v * v / (kLoadOhm * kInputV)},
+                                                             {"L2", v / kLoadOhm},
+                                                             {"C1", kInputV - v},
+                                                             {"C2", v}})));
     const SteadyState s = run_to_steady_state(sim);
     ASSERT_EQ(s.summary.end, pulsewise::RunEnd::kSteadyState) << s.summary.message;
     const auto& c1 = s.summary.last_cycle.signals[2];
@@ -401,8 +403,9 @@ TEST(CukConverter, MatchesEricksonMaksimovicCcmRatio) {
     EXPECT_LT(error, kAverageTolerance) << "simulated " << s.average << " V, E&M " << v << " V";
     EXPECT_EQ(s.summary.last_cycle.mode, ConductionMode::kCcm);
     worst = std::max(worst, error);
-    std::printf("  cuk D = %.2f  M_E&M = %+9.6f  M = %+9.6f  error = %.2e  ripple out %.2e C1 %.2e\n",
-                duty, m, s.average / kInputV, error, s.ripple, c1_ripple);
+    std::printf(
+        "  cuk D = %.2f  M_E&M = %+9.6f  M = %+9.6f  error = %.2e  ripple out %.2e C1 %.2e\n", duty,
+        m, s.average / kInputV, error, s.ripple, c1_ripple);
   }
   std::printf("[ cuk CCM ] worst |M/M_E&M - 1| = %.3e\n", worst);
   RecordProperty("worst_average_error", std::to_string(worst));
@@ -421,9 +424,10 @@ constexpr double kRippleInductorH = 100e-6;
 constexpr double kRippleCapacitorF = 100e-6;
 
 TEST(SmallRippleApproximation, MatchesEricksonMaksimovicInductorAndOutputRipple) {
-  for (const RippleCase rc : {RippleCase{Topology::kBuck, 0.5}, RippleCase{Topology::kBoost, 0.5},
-                              RippleCase{Topology::kBuckBoost, 0.5}, RippleCase{Topology::kBuck, 0.25},
-                              RippleCase{Topology::kBoost, 0.75}}) {
+  for (const RippleCase rc :
+       {RippleCase{Topology::kBuck, 0.5}, RippleCase{Topology::kBoost, 0.5},
+        RippleCase{Topology::kBuckBoost, 0.5}, RippleCase{Topology::kBuck, 0.25},
+        RippleCase{Topology::kBoost, 0.75}}) {
     SCOPED_TRACE(std::string(name_of(rc.topology)) + " D = " + std::to_string(rc.duty));
     const double d = rc.duty, ts = kPeriodS, l = kRippleInductorH, c = kRippleCapacitorF;
     const double m = ccm_ratio(rc.topology, d), v = m * kInputV;
@@ -466,10 +470,11 @@ TEST(SmallRippleApproximation, MatchesEricksonMaksimovicInductorAndOutputRipple)
         << "inductor ripple " << s.inductor_pp << " A, E&M " << inductor_pp << " A";
     EXPECT_LT(output_error, output_tolerance)
         << "output ripple " << s.output_pp << " V, E&M " << output_pp << " V";
-    std::printf("  %-10s D = %.2f  inductor p-p %.6f A (E&M %.6f, error %.2e, tol %.1e)  output "
-                "p-p %.6e V (E&M %.6e, error %.2e, tol %.1e)\n",
-                name_of(rc.topology), d, s.inductor_pp, inductor_pp, inductor_error,
-                inductor_tolerance, s.output_pp, output_pp, output_error, output_tolerance);
+    std::printf(
+        "  %-10s D = %.2f  inductor p-p %.6f A (E&M %.6f, error %.2e, tol %.1e)  output "
+        "p-p %.6e V (E&M %.6e, error %.2e, tol %.1e)\n",
+        name_of(rc.topology), d, s.inductor_pp, inductor_pp, inductor_error, inductor_tolerance,
+        s.output_pp, output_pp, output_error, output_tolerance);
   }
 }
 
@@ -491,8 +496,7 @@ TEST(BoostWithWindingResistance, MatchesEricksonMaksimovicRatioAndEfficiency) {
                      steady_state_options({"out.v", "L1.i"}));
       const double load_a = m * kInputV / kLoadOhm;
       sim.set_initial_state(periodic_state(
-          sim.model().circuit(),
-          state_of(sim, {{"L1", load_a / d_prime}, {"C1", m * kInputV}})));
+          sim.model().circuit(), state_of(sim, {{"L1", load_a / d_prime}, {"C1", m * kInputV}})));
       const SteadyState s = run_to_steady_state(sim);
       ASSERT_EQ(s.summary.end, pulsewise::RunEnd::kSteadyState) << s.summary.message;
       ASSERT_LT(s.ripple, kRippleBound);
@@ -509,10 +513,11 @@ TEST(BoostWithWindingResistance, MatchesEricksonMaksimovicRatioAndEfficiency) {
       EXPECT_LT(efficiency_error, kAverageTolerance);
       worst_ratio = std::max(worst_ratio, ratio_error);
       worst_efficiency = std::max(worst_efficiency, efficiency_error);
-      std::printf("  boost D = %.2f  R_L/R = %.3f  M_E&M = %.6f  M = %.6f  error = %.2e  eta_E&M = "
-                  "%.6f  eta = %.6f  error = %.2e\n",
-                  duty, relative_winding, m, s.average / kInputV, ratio_error, efficiency,
-                  output_w / input_w, efficiency_error);
+      std::printf(
+          "  boost D = %.2f  R_L/R = %.3f  M_E&M = %.6f  M = %.6f  error = %.2e  eta_E&M = "
+          "%.6f  eta = %.6f  error = %.2e\n",
+          duty, relative_winding, m, s.average / kInputV, ratio_error, efficiency,
+          output_w / input_w, efficiency_error);
     }
   }
   std::printf("[ boost with R_L ] worst ratio error %.3e, worst efficiency error %.3e\n",
