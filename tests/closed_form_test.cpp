@@ -179,12 +179,15 @@ Eigen::VectorXd state_of(const Simulation& sim, const std::map<std::string, doub
 
 SimulationOptions steady_state_options(std::vector<std::string> signals) {
   SimulationOptions o;
+  // The runs start on the periodic state found by periodic_state() and stop after a few periods;
+  // 8000 is only a cap (kept below ~9000 periods, where the absolute time t loses the engine's
+  // 1e-12 Ts resolution; see analytic_circuit_test).
   o.periods = 8000;
   o.recorded_signals = std::move(signals);
   o.stop_at_steady_state = true;
-  // Stop when the state moves by less than 1e-9 of its size per period. The slowest mode decays
-  // over at most ~2 R C = 1000 periods, so what is left of the start-up error is below about
-  // 1e-9 * 1000 = 1e-6 relative: negligible next to the 2e-3 tolerance.
+  // Stop when the state moves by less than 1e-8 of its size per period. The slowest mode decays
+  // over at most ~2 R C = 1000 periods, so what can be left of a start-up error is below about
+  // 1e-8 * 1000 = 1e-5 relative: negligible next to the 2e-3 tolerance.
   o.steady_state_tolerance = 1e-8;
   return o;
 }
