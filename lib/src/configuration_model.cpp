@@ -463,7 +463,12 @@ ConfigurationModel ConfigurationBuilder::build(DevicePattern pattern,
     model.problem = "the nodal equations of this configuration are singular";
     return model;
   }
-  const Solution sol{lu.solve(s.Nx), lu.solve(s.Nu), lu.solve(s.Nn)};
+  // Eigen's solvers touch the data pointer even for zero columns: solve only what exists.
+  auto solve = [&](const Eigen::MatrixXd& rhs) -> Eigen::MatrixXd {
+    if (rhs.cols() == 0) return Eigen::MatrixXd::Zero(rhs.rows(), 0);
+    return lu.solve(rhs);
+  };
+  const Solution sol{solve(s.Nx), solve(s.Nu), solve(s.Nn)};
   model.A = Eigen::MatrixXd::Zero(n_x_, n_x_);
   model.B = Eigen::MatrixXd::Zero(n_x_, n_u_);
   model.E = Eigen::MatrixXd::Zero(n_x_, n_n_);
