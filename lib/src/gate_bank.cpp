@@ -8,6 +8,12 @@ namespace pulsewise::detail {
 
 namespace {
 constexpr double kNever = std::numeric_limits<double>::infinity();
+}  // namespace
+
+// t plus the resolution, never less than a few units in the last place of t: late in a long run
+// the fixed resolution falls below the spacing of doubles and would round away.
+double GateBank::just_after(double t) const {
+  return t + std::max(resolution_s_, 4 * (std::nextafter(t, kNever) - t));
 }
 
 GateBank::GateBank(const Circuit& circuit, const std::vector<int>& devices,
@@ -43,7 +49,7 @@ double GateBank::duty_of_period(const Gate& g, long k) const {
 
 // On-interval of period k, relative to its start, for each kind of gate.
 bool GateBank::on(const Gate& g, double t) const {
-  const double tp = t + resolution_s_;
+  const double tp = just_after(t);
   if (g.kind == Kind::kSchedule) {
     bool state = g.schedule->initial_on;
     for (const auto& [time, value] : g.schedule->changes) {
@@ -67,7 +73,7 @@ bool GateBank::on(const Gate& g, double t) const {
 }
 
 double GateBank::next_edge(const Gate& g, double t) const {
-  const double tp = t + resolution_s_;
+  const double tp = just_after(t);
   if (g.kind == Kind::kSchedule) {
     for (const auto& change : g.schedule->changes)
       if (change.first > tp) return change.first;

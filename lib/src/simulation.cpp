@@ -883,23 +883,29 @@ struct Simulation::Impl {
     if (nonlinear) return advance_until_ode(t_target);
     const double time_resolution = options.event_time_tolerance * period_s;
     const double nominal = period_s / options.substeps_per_period;
-    while (t_target - t > time_resolution) {
+    // Time within this stretch is kept relative to its start, so that many short pieces do not
+    // each round to the spacing of doubles at the absolute time.
+    const double t_base = t, span = t_target - t_base;
+    double tau = 0.0;
+    while (span - tau > time_resolution) {
       if (cycle.events > options.max_events_per_period)
         return fail(RunEnd::kChattering,
                     "more than " + std::to_string(options.max_events_per_period) +
                         " events in one period near t = " + std::to_string(t) +
                         " s; the devices chatter: check the circuit or raise the event limit");
-      double h = std::min({t_target - t, nominal, current->max_step_s});
-      if (t_target - t - h < time_resolution) h = t_target - t;
+      const double remaining = span - tau;
+      double h = std::min({remaining, nominal, current->max_step_s});
+      if (remaining - h < time_resolution) h = remaining;
       if (!piece.expand(current->M, z, h))
         return fail(RunEnd::kNoConsistentConfiguration, "series expansion did not converge");
       const auto [s_event, which] = find_event(time_resolution / h);
-      const bool last = which < 0 && h == t_target - t;
+      const bool last = which < 0 && h == remaining;
       if (which >= 0) piece.truncate(std::max(s_event, 0.0));
       const double h_piece = piece.duration_s();
       finish_piece(h_piece);
       piece.end_state(z);
-      t = last ? t_target : t + h_piece;
+      tau = last ? span : tau + h_piece;
+      t = last ? t_target : t_base + tau;
       if (which >= 0 && !state_event(which)) return false;
     }
     t = t_target;
@@ -916,7 +922,7 @@ struct Simulation::Impl {
     // Sinusoids evolve inside z exactly; only their breakpoints (a rectified sine's zero
     // crossings, where the slope flips) reset them. Everything else is reset when it differs.
     const bool at_breakpoint =
-        std::abs(next_breakpoint(t - 2e-12 * period_s) - t) <= 2e-12 * period_s;
+        std::abs(next_breakpoint(t - 2 * time_slack(t)) - t) <= 2 * time_slack(t);
     bool inputs_changed = at_breakpoint;
     for (int k = 0; k < n_u && !inputs_changed; ++k)
       inputs_changed = !is_oscillator_input(k) && u[k] != z[n_x + k];
@@ -952,9 +958,15 @@ struct Simulation::Impl {
     for (int r = 0; r < n_r; ++r) z[n_x + n_u + r] = du[ramp_inputs[r]] / ramp_scale[r];
   }
 
+  // Instants closer than this to t count as t: 1e-12 of the period, but never below a few units
+  // in the last place of t (late in a long run the spacing of doubles exceeds 1e-12 T).
+  double time_slack(double t) const {
+    return std::max(1e-12 * period_s, 4 * (std::nextafter(t, kInf) - t));
+  }
+
   double next_breakpoint(double after) const {
     double best = kInf;
-    const double tp = after + 1e-12 * period_s;
+    const double tp = after + time_slack(after);
     for (int el : model.input_elements())
       best = std::min(best, model.circuit().elements()[el].waveform.next_breakpoint_after(tp));
     return best;

@@ -35,6 +35,7 @@ class GateBank {
   bool on(const Gate& g, double t) const;
   double next_edge(const Gate& g, double t) const;
   double duty_of_period(const Gate& g, long k) const;
+  double just_after(double t) const;
 
   std::vector<Gate> gates_;
   std::vector<std::pair<int, int>> switch_gate_;  // (device bit, gate index)
