@@ -19,6 +19,7 @@ const char* to_string(ErrorKind kind) {
     case ErrorKind::kMissingKey: return "missing key";
     case ErrorKind::kWrongUnit: return "wrong unit";
     case ErrorKind::kInvalidOption: return "invalid option";
+    case ErrorKind::kBadFile: return "bad file";
   }
   return "unknown";
 }

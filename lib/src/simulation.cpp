@@ -46,6 +46,7 @@ void detail::CycleAccumulator::reset(std::size_t signals, std::size_t energy_ele
   intervals.clear();
   energy_in = dissipated = idle_time = 0.0;
   natural_turn_off = false;
+  forced_off_near_zero = false;
   events = 0;
 }
 
@@ -179,6 +180,7 @@ struct Simulation::Impl {
     gram = Eigen::MatrixXd::Zero(n_z, n_z);
     du_new = Eigen::VectorXd::Zero(n_u);
     visited.reserve(64);
+    diode_current_before.assign(diode_bits.size(), kInf);
     z = Eigen::VectorXd::Zero(n_z);
     scratch = Eigen::VectorXd::Zero(n_z);
   }
@@ -482,6 +484,9 @@ struct Simulation::Impl {
       log_event(was_on ? EventKind::kForcedTurnOff : EventKind::kForcedTurnOn,
                 model.devices()[diode_bits[d]]);
       if (!was_on) in_idle = false;
+      // CCM side of the boundary: commutated off by a switch while its current was almost zero.
+      if (was_on && diode_current_before[d] <= options.boundary_tolerance * current_scale)
+        cycle.forced_off_near_zero = true;
     }
     return fail(RunEnd::kNoConsistentConfiguration,
                 "no consistent device configuration after " +
@@ -932,6 +937,9 @@ struct Simulation::Impl {
     if (!changed && !inputs_changed) return true;
     if (inputs_changed) load_inputs(u, du);
     if (changed) {
+      for (std::size_t d = 0; d < diode_bits.size(); ++d)
+        diode_current_before[d] =
+            ((pattern >> diode_bits[d]) & 1u) ? current->events.row(d).dot(z) : kInf;
       pattern = (pattern & ~gates->switch_mask()) | switches;
       in_idle = false;
       for (std::size_t bit = 0; bit < model.devices().size(); ++bit) {
@@ -943,7 +951,9 @@ struct Simulation::Impl {
     } else {
       log_event(EventKind::kSourceBreakpoint, -1);
     }
-    return make_consistent();
+    const bool ok = make_consistent();
+    std::fill(diode_current_before.begin(), diode_current_before.end(), kInf);
+    return ok;
   }
 
   bool is_oscillator_input(int k) const {
@@ -1002,7 +1012,7 @@ struct Simulation::Impl {
       return cycle.idle_time > options.boundary_tolerance * period_s ? ConductionMode::kDcm
                                                                      : ConductionMode::kBoundary;
     }
-    return ConductionMode::kCcm;
+    return cycle.forced_off_near_zero ? ConductionMode::kBoundary : ConductionMode::kCcm;
   }
 
   CycleMetrics finish_cycle(long index, double start, const Eigen::VectorXd& x_start) {

@@ -31,6 +31,7 @@ enum class ErrorKind {
   kMissingKey,      // a required key is absent
   kWrongUnit,       // a value carries a unit symbol that does not fit the field
   kInvalidOption,   // a solver or run option is out of range
+  kBadFile,         // a data file is missing, unreadable or not in the expected format
 };
 
 const char* to_string(ErrorKind kind);

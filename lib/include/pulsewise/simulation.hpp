@@ -51,7 +51,9 @@ struct SimulationOptions {
   std::string output_signal;
   // Settling band as a fraction of the final cycle average of the output.
   double settling_band = 0.02;
-  // A DCM idle interval shorter than this fraction of the period counts as the CCM/DCM boundary.
+  // CCM/DCM boundary band: a DCM idle interval shorter than this fraction of the period, or a
+  // diode commutated off while carrying less than this fraction of the largest inductor current
+  // seen, counts as the boundary.
   double boundary_tolerance = 1e-3;
   // Cache configuration models and transition data (off only to check the cache).
   bool cache = true;

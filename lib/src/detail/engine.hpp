@@ -44,6 +44,7 @@ struct CycleAccumulator {
   std::vector<double> element_energy;  // per energy element
   double idle_time = 0;
   bool natural_turn_off = false;
+  bool forced_off_near_zero = false;  // a diode forced off while carrying almost no current
   long events = 0;
   void reset(std::size_t signals, std::size_t energy_elements);
 };
