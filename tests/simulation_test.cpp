@@ -214,3 +214,31 @@ TEST(Simulation, PerElementEnergiesAddUpToTheTotalsAndMatchJouleHeating) {
 }
 
 }  // namespace
+
+namespace {
+
+TEST(Simulation, OvershootOfANegativeOutputIsMeasuredTowardMoreNegativeValues) {
+  using namespace pulsewise;
+  // Inverting buck-boost from rest, CCM, output -D/(1-D) Vin = -12 V (Erickson and Maksimovic,
+  // Fundamentals of Power Electronics, 2nd ed., ch. 2); a lightly damped LC output overshoots.
+  Circuit c;
+  c.add_voltage_source("Vin", "in", "0", Waveform::constant(12.0))
+      .add_switch("S1", "in", "sw", "pwm", SwitchOptions{10e-3, kOpen})
+      .add_inductor("L1", "sw", "0", 22e-6)
+      .add_diode("D1", "out", "sw", DiodeOptions{10e-3, 0.0, kOpen})
+      .add_capacitor("C1", "out", "0", 22e-6)
+      .add_resistor("Rload", "out", "0", 20.0)
+      .add_modulator(pwm(200e3, 0.5));
+  SimulationOptions o;
+  o.periods = 3000;
+  o.output_signal = "out.v";
+  const RunSummary s = Simulation(c, o).run();
+  ASSERT_TRUE(s.ok()) << s.message;
+  const double final_value = s.last_cycle.signals.back().average;
+  EXPECT_LT(final_value, -11.0);
+  EXPECT_LT(s.startup.output_peak, final_value);  // more negative than where it settles
+  EXPECT_GT(s.startup.overshoot, 0.0);
+  EXPECT_NEAR(s.startup.overshoot, (s.startup.output_peak - final_value) / final_value, 1e-15);
+}
+
+}  // namespace

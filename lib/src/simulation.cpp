@@ -118,9 +118,11 @@ struct Simulation::Impl {
   bool in_idle = false;
   int last_switch_off = -1;  // element index of the switch that opened last
   std::vector<double> output_averages;
-  std::vector<DevicePattern> visited;      // consistency search, reused to avoid allocation
-  Eigen::VectorXd u_new, du_new;           // apply_schedule scratch
-  Eigen::VectorXd mean, end_z, end_slope;  // moments of the current piece
+  std::vector<DevicePattern> visited;         // consistency search, reused to avoid allocation
+  std::vector<double> diode_current_before;   // on-diode currents just before a gate edge
+  double output_max = 0.0, output_min = 0.0;  // extremes of the output signal over the run
+  Eigen::VectorXd u_new, du_new;              // apply_schedule scratch
+  Eigen::VectorXd mean, end_z, end_slope;     // moments of the current piece
   Eigen::MatrixXd gram;
 
   Impl(const Circuit& circuit, SimulationOptions opts) : model(circuit), options(std::move(opts)) {
@@ -1098,10 +1100,10 @@ struct Simulation::Impl {
     update_scales();
     CycleMetrics m = finish_cycle(k, start, x_start);
     if (output_recorded >= 0) {
-      output_averages.push_back(m.signals[output_recorded].average);
-      summary.startup.output_peak =
-          k == 0 ? m.signals[output_recorded].max
-                 : std::max(summary.startup.output_peak, m.signals[output_recorded].max);
+      const SignalStats& out = m.signals[output_recorded];
+      output_averages.push_back(out.average);
+      output_max = k == 0 ? out.max : std::max(output_max, out.max);
+      output_min = k == 0 ? out.min : std::min(output_min, out.min);
     }
     if (observer) observer->on_cycle(m);
     summary.last_cycle = std::move(m);
@@ -1114,14 +1116,10 @@ struct Simulation::Impl {
     const double final_value = output_averages.back();
     const double scale = std::abs(final_value);
     if (scale == 0) return;
-    double extreme = summary.startup.output_peak;
-    if (final_value < 0) {
-      extreme = kInf;
-      // For a negative output, overshoot is measured toward more negative values: use min.
-      extreme = std::min(extreme, summary.last_cycle.signals[output_recorded].min);
-    }
-    summary.startup.overshoot =
-        std::max(0.0, (final_value > 0 ? extreme - final_value : final_value - extreme) / scale);
+    // The peak on the side of the final value: the most negative value for a negative output.
+    const double extreme = final_value > 0 ? output_max : output_min;
+    summary.startup.output_peak = extreme;
+    summary.startup.overshoot = std::max(0.0, (extreme - final_value) / final_value);
     long settled = 0;
     for (std::size_t k = 0; k < output_averages.size(); ++k)
       if (std::abs(output_averages[k] - final_value) > options.settling_band * scale)

@@ -126,8 +126,10 @@ const char* to_string(RunEnd end);
 struct StartupMetrics {
   std::vector<std::string> inductors;
   std::vector<double> peak_inductor_current_a;  // largest |i| over the run, per inductor
-  double output_peak = 0.0;                     // largest value of the output signal
-  double overshoot = 0.0;        // (output_peak - final average) / |final average|, >= 0
+  // Extreme of the output signal over the run on the side of its final average: the largest
+  // value for a positive output, the most negative for a negative one.
+  double output_peak = 0.0;
+  double overshoot = 0.0;        // (output_peak - final average) / final average, >= 0
   long settling_cycle = -1;      // first cycle from which the average stays inside the band
   long steady_state_cycle = -1;  // cycle at which steady state was detected, -1 if never
 };
