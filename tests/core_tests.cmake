@@ -14,3 +14,4 @@ if(TARGET boost_worked_example)
   set_tests_properties(WorkedExample.BoostRunsFiveHundredPeriodsAndEndsInDcm PROPERTIES
                        PASS_REGULAR_EXPRESSION "500 periods.*\nlast period: mode DCM")
 endif()
+pulsewise_add_test(line_frequency_test SOURCES line_frequency_test.cpp LIBS pulsewise::core)
