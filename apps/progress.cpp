@@ -40,8 +40,9 @@ void ProgressLine::on_cycle(const CycleMetrics& /*cycle*/) {
   const double rate = elapsed_s > 0.0 ? static_cast<double>(done_) / elapsed_s : 0.0;
   const long left = total_periods_ > done_ ? total_periods_ - done_ : 0;
   const double eta_s = rate > 0.0 ? static_cast<double>(left) / rate : 0.0;
-  fmt::print(out_, "\r{} / {} periods  {:.0f} periods/s  {:.0f} s left (at most)   ", done_,
-             total_periods_, rate, eta_s);
+  // "Left" assumes the run goes to its last period; a steady-state stop ends it sooner.
+  fmt::print(out_, "\r{} / {} periods  {:.0f} periods/s  {:.{}f} s left   ", done_,
+             total_periods_, rate, eta_s, eta_s < 10.0 ? 1 : 0);
   std::fflush(out_);
   shown_ = true;
 }
