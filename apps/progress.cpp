@@ -41,8 +41,8 @@ void ProgressLine::on_cycle(const CycleMetrics& /*cycle*/) {
   const long left = total_periods_ > done_ ? total_periods_ - done_ : 0;
   const double eta_s = rate > 0.0 ? static_cast<double>(left) / rate : 0.0;
   // "Left" assumes the run goes to its last period; a steady-state stop ends it sooner.
-  fmt::print(out_, "\r{} / {} periods  {:.0f} periods/s  {:.{}f} s left   ", done_,
-             total_periods_, rate, eta_s, eta_s < 10.0 ? 1 : 0);
+  fmt::print(out_, "\r{} / {} periods  {:.0f} periods/s  {:.{}f} s left   ", done_, total_periods_,
+             rate, eta_s, eta_s < 10.0 ? 1 : 0);
   std::fflush(out_);
   shown_ = true;
 }

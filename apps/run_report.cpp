@@ -50,6 +50,10 @@ void print_run_line(const RunReport& r) {
 
 void print_last_cycle(const RunReport& r) {
   const CycleMetrics& c = r.summary.last_cycle;
+  if (r.summary.cycles == 0) {
+    fmt::print("last period  none completed\n");
+    return;
+  }
   fmt::print("last period  #{} from {}: {}\n", c.index, seconds(c.start_time_s), to_string(c.mode));
   for (std::size_t i = 0; i < c.intervals.size(); ++i) {
     const std::string devices = i < r.interval_patterns.size() ? r.interval_patterns[i] : "";
@@ -81,7 +85,7 @@ void print_startup(const RunReport& r) {
 void print_signals(const RunReport& r) {
   const RunSummary& s = r.summary;
   const std::vector<SignalStats>& stats = s.last_cycle.signals;
-  if (stats.empty()) return;
+  if (stats.empty() || s.cycles == 0) return;
   std::size_t width = 6;
   for (const SignalInfo& info : s.recorded) width = std::max(width, info.name.size());
   fmt::print("signals over the last period (exact integrals)\n");

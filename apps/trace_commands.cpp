@@ -26,6 +26,9 @@ void require_trace_file(const std::string& path) {
 // refuses to create is an I/O error, told apart here before the export starts.
 void prepare_out_dir(const std::string& dir) {
   std::error_code ec;
+  if (fs::exists(dir, ec) && !fs::is_directory(dir, ec)) {
+    throw UsageError(fmt::format("{}: exists and is not a directory; give another -d", dir));
+  }
   fs::create_directories(dir, ec);
   if (ec) throw IoError(fmt::format("{}: cannot create the directory: {}", dir, ec.message()));
   if (!fs::is_directory(dir, ec)) throw UsageError(fmt::format("{}: is not a directory", dir));

@@ -364,6 +364,30 @@ TEST(DriverRun, EveryExampleInDataRunsAndSucceeds) {
   }
 }
 
+// A switch that opens an inductor current with no freewheeling path is a circuit the engine can
+// run but not continue (an ideal switch would need an infinite voltage): the run ends abnormally,
+// exit code 3, and the summary names the switch and the inductor (docs/exit-codes.md).
+TEST(DriverRun, InterruptedInductorCurrentEndsTheRunWithCodeThree) {
+  const fs::path dir = scratch();
+  const fs::path file = write_file(dir, "interrupt.toml",
+                                   "[[voltage_source]]\nname = \"Vin\"\nnodes = [\"in\", \"0\"]\n"
+                                   "voltage = \"5 V\"\n[[inductor]]\nname = \"L1\"\n"
+                                   "nodes = [\"in\", \"sw\"]\ninductance = \"10 uH\"\n"
+                                   "[[switch]]\nname = \"S1\"\nnodes = [\"sw\", \"0\"]\n"
+                                   "gate = \"pwm1\"\non_resistance = \"10 mOhm\"\n"
+                                   "[[pwm]]\nname = \"pwm1\"\nfrequency = \"200 kHz\"\n"
+                                   "duty = 0.4\n[run]\nperiods = 10\n");
+  const Outcome o = run_driver({"run", file.string(), "--json"}, dir);
+  EXPECT_EQ(o.code, pulsewise::app::kExitAbnormalEnd) << o.err << o.out;
+  const nlohmann::json j = nlohmann::json::parse(o.out);
+  EXPECT_EQ(j.at("ok"), false);
+  const std::string message = j.at("message");
+  EXPECT_NE(message.find("'S1'"), std::string::npos) << message;
+  EXPECT_NE(message.find("'L1'"), std::string::npos) << message;
+  // The trace up to the stop is still written and readable.
+  EXPECT_EQ(run_driver({"info", (dir / "interrupt.h5").string()}, dir).code, 0);
+}
+
 // --- trace commands -----------------------------------------------------------------------
 
 TEST(DriverTraces, InfoAndExportReadWhatRunWrote) {
