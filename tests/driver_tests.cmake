@@ -9,3 +9,12 @@ if(TARGET pulsewise_driver)
     PULSEWISE_PYTHON="/usr/bin/python3")
   add_dependencies(driver_test pulsewise_driver)
 endif()
+
+# The whole closed-form grid of `pulsewise verify` (36 points: buck, boost, buck-boost, CCM and
+# DCM; Erickson & Maksimovic, Fundamentals of Power Electronics, 2nd ed., ch. 2 and 5): exit 0
+# only if every row is within its tolerance.
+if(TARGET pulsewise_driver)
+  add_test(NAME DriverVerify.FullGridAgreesWithTheClosedForms
+           COMMAND pulsewise_driver verify --quiet)
+  set_tests_properties(DriverVerify.FullGridAgreesWithTheClosedForms PROPERTIES TIMEOUT 900)
+endif()
