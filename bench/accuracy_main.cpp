@@ -53,15 +53,14 @@ void check(const char* file_name, long periods) {
     if (summary.recorded[k].name == file.simulation.output_signal)
       average = summary.last_cycle.signals[k].average;
   const long double reference = pwbench::ReferenceSolver<Case>({periods, 0.5L}).run().final_average;
-  const double error =
-      static_cast<double>(std::fabs(static_cast<long double>(average) - reference) /
-                          std::fabs(reference));
-  std::printf("{\"case\": \"%s\", \"periods\": %ld, \"end_time_s\": %.6g, \"ok\": %s, "
-              "\"pulsewise_v\": %.15g, \"reference_v\": %.18Lg, \"rel_error\": %.3e, "
-              "\"odd_periods\": %ld}\n",
-              Case<double>::kName.data(), periods, summary.end_time_s,
-              summary.ok() ? "true" : "false", average, reference, error,
-              counter.odd_periods());
+  const double error = static_cast<double>(
+      std::fabs(static_cast<long double>(average) - reference) / std::fabs(reference));
+  std::printf(
+      "{\"case\": \"%s\", \"periods\": %ld, \"end_time_s\": %.6g, \"ok\": %s, "
+      "\"pulsewise_v\": %.15g, \"reference_v\": %.18Lg, \"rel_error\": %.3e, "
+      "\"odd_periods\": %ld}\n",
+      Case<double>::kName.data(), periods, summary.end_time_s, summary.ok() ? "true" : "false",
+      average, reference, error, counter.odd_periods());
   std::fflush(stdout);
 }
 

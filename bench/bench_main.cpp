@@ -32,8 +32,8 @@
 
 namespace {
 
-constexpr long kPeriods = 20000;           // every case: 20 000 periods from the zero state
-constexpr double kBaselineATarget = 1e-6;  // issue 4: relative error baseline A must reach
+constexpr long kPeriods = 20000;             // every case: 20 000 periods from the zero state
+constexpr double kBaselineATarget = 1e-6;    // issue 4: relative error baseline A must reach
 constexpr int kBaselineAMaxSteps = 1 << 16;  // give up refining beyond this many steps a period
 
 std::string case_file(std::string_view name) {
@@ -90,8 +90,8 @@ int baseline_a_steps() {
 }
 
 void set_common_counters(benchmark::State& state, double average, double error) {
-  state.counters["periods_per_s"] =
-      benchmark::Counter(static_cast<double>(kPeriods), benchmark::Counter::kIsIterationInvariantRate);
+  state.counters["periods_per_s"] = benchmark::Counter(
+      static_cast<double>(kPeriods), benchmark::Counter::kIsIterationInvariantRate);
   state.counters["rel_error"] = error;
   state.counters["final_average_v"] = average;
 }
@@ -151,11 +151,10 @@ void bm_baseline_b(benchmark::State& state) {
 template <template <class> class Case>
 void register_case() {
   const std::string name(Case<double>::kName);
-  for (auto* b : {benchmark::RegisterBenchmark(("pulsewise/" + name).c_str(), bm_pulsewise<Case>),
-                  benchmark::RegisterBenchmark(("baseline_a_rk4/" + name).c_str(),
-                                               bm_baseline_a<Case>),
-                  benchmark::RegisterBenchmark(("baseline_b_dopri5/" + name).c_str(),
-                                               bm_baseline_b<Case>)})
+  for (auto* b :
+       {benchmark::RegisterBenchmark(("pulsewise/" + name).c_str(), bm_pulsewise<Case>),
+        benchmark::RegisterBenchmark(("baseline_a_rk4/" + name).c_str(), bm_baseline_a<Case>),
+        benchmark::RegisterBenchmark(("baseline_b_dopri5/" + name).c_str(), bm_baseline_b<Case>)})
     b->Unit(benchmark::kMillisecond)->MinTime(0.2);
 }
 

@@ -67,9 +67,8 @@ int main(int argc, char** argv) {
         "\"waveform_rows\": %ld, \"cycle_rows\": %ld, \"event_rows\": %ld, "
         "\"peak_buffered_bytes\": %zu}\n",
         periods, summary.ok() ? "true" : "false", summary.cycles, peak_rss_kib(), rss_before,
-        seconds, static_cast<long long>(std::filesystem::file_size(trace)),
-        progress.waveform_rows, progress.cycle_rows, progress.event_rows,
-        progress.peak_buffered_bytes);
+        seconds, static_cast<long long>(std::filesystem::file_size(trace)), progress.waveform_rows,
+        progress.cycle_rows, progress.event_rows, progress.peak_buffered_bytes);
     return summary.ok() ? 0 : 3;
   } catch (const std::exception& error) {
     std::fprintf(stderr, "bench_memory: %s\n", error.what());

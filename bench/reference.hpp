@@ -26,7 +26,7 @@
 namespace pwbench {
 
 struct ReferenceOptions {
-  long periods = 20000;             // switching periods from the zero state
+  long periods = 20000;               // switching periods from the zero state
   long double max_step_norm = 0.25L;  // bound on ||A h||_1 of a Taylor step
 };
 
@@ -65,9 +65,11 @@ class ReferenceSolver {
     for (long p = 0; p < options_.periods; ++p) {
       T integral = 0;
       for (std::size_t e = 0; e + 1 < edges_.size(); ++e) {
-        const T a = static_cast<T>(edges_[e]) * period_, b = static_cast<T>(edges_[e + 1]) * period_;
+        const T a = static_cast<T>(edges_[e]) * period_,
+                b = static_cast<T>(edges_[e + 1]) * period_;
         const unsigned sw = switch_pattern_at(model_, 0.5 * (edges_[e] + edges_[e + 1]));
-        if (!settle(model_, sw, di, x.data(), kTolerance)) throw std::runtime_error("settle cycles");
+        if (!settle(model_, sw, di, x.data(), kTolerance))
+          throw std::runtime_error("settle cycles");
         integral += advance(sw, di, x, b - a, result);
       }
       result.final_average = integral / period_;

@@ -20,12 +20,13 @@ void print_case(long periods) {
   const double seconds =
       std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
   const pwbench::ReferenceResult fine = Solver({periods, 0.125L}).run();
-  const long double diff = std::fabs(coarse.final_average - fine.final_average) /
-                           std::fabs(fine.final_average);
-  std::printf("%s  %ld periods  average %.18Lf V  (step bound 0.125: %.18Lf V, rel. diff %.2Le)"
-              "  %ld events  %ld steps  %.2f s\n",
-              Case<double>::kName.data(), periods, coarse.final_average, fine.final_average, diff,
-              coarse.events, coarse.steps, seconds);
+  const long double diff =
+      std::fabs(coarse.final_average - fine.final_average) / std::fabs(fine.final_average);
+  std::printf(
+      "%s  %ld periods  average %.18Lf V  (step bound 0.125: %.18Lf V, rel. diff %.2Le)"
+      "  %ld events  %ld steps  %.2f s\n",
+      Case<double>::kName.data(), periods, coarse.final_average, fine.final_average, diff,
+      coarse.events, coarse.steps, seconds);
 }
 
 }  // namespace
