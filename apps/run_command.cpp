@@ -97,6 +97,7 @@ RunReport make_report(const RunCommandOptions& options, const CircuitFile& file,
                                   ? simulation.options().switching_period_s
                                   : file.circuit.first_modulator_period_s();
   report.output_signal = simulation.options().output_signal;
+  report.settling_band = simulation.options().settling_band;
   for (const ConfigurationInterval& interval : summary.last_cycle.intervals) {
     report.interval_patterns.push_back(simulation.describe(interval.pattern));
   }

@@ -69,10 +69,12 @@ void print_startup(const RunReport& r) {
                si(st.peak_inductor_current_a[i], Unit::kAmpere));
   }
   if (!r.output_signal.empty()) {
-    fmt::print("  {} peak {}, overshoot {:.2f} %, ", r.output_signal,
-               fmt::format("{:.6g}", st.output_peak), 100.0 * st.overshoot);
+    const Unit unit = r.output_signal.ends_with(".i") ? Unit::kAmpere : Unit::kVolt;
+    fmt::print("  {} peak {}, overshoot {:.2f} %, ", r.output_signal, si(st.output_peak, unit),
+               100.0 * st.overshoot);
     if (st.settling_cycle >= 0) {
-      fmt::print("settled from period {}\n", st.settling_cycle);
+      fmt::print("settled ({:.0f} % band) from period {}\n", 100.0 * r.settling_band,
+                 st.settling_cycle);
     } else {
       fmt::print("not settled\n");
     }

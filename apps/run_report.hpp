@@ -16,7 +16,8 @@ struct RunReport {
   std::string circuit_name;
   std::string trace_path;  // empty when no trace file was written
   double switching_period_s = 0.0;
-  std::string output_signal;                   // the signal start-up figures refer to, may be empty
+  std::string output_signal;   // the signal start-up figures refer to, may be empty
+  double settling_band = 0.0;  // fraction of the final average that counts as settled
   std::vector<std::string> interval_patterns;  // "S1 on, D1 off" per last-cycle interval
   PowerBalance power;                          // efficiency and loss split of the last period
   RunSummary summary;
