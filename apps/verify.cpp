@@ -30,7 +30,8 @@ constexpr std::array<Converter, 3> kConverters = {Converter::kBuck, Converter::k
 
 InputError bad_option(const std::string& option, const std::string& problem,
                       const std::string& fix) {
-  return InputError(ErrorKind::kInvalidOption, option, problem, fix);
+  // Command-line options are no circuit elements: the option leads the problem text instead.
+  return InputError(ErrorKind::kInvalidOption, "", option + ": " + problem, fix);
 }
 
 bool is_mode_ccm(ConductionMode mode) { return mode == ConductionMode::kCcm; }
