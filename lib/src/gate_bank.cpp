@@ -72,28 +72,30 @@ bool GateBank::on(const Gate& g, double t) const {
   return false;
 }
 
-double GateBank::next_edge(const Gate& g, double t) const {
-  const double tp = just_after(t);
+long double GateBank::next_edge(const Gate& g, long double t) const {
+  const long double tp = t + std::max<long double>(resolution_s_, 8 * std::abs(t) * 1e-19L);
+  constexpr long double kNeverL = std::numeric_limits<long double>::infinity();
   if (g.kind == Kind::kSchedule) {
     for (const auto& change : g.schedule->changes)
       if (change.first > tp) return change.first;
-    return kNever;
+    return kNeverL;
   }
-  const long k = static_cast<long>(std::floor(tp / g.period_s - g.phase));
-  for (long period = k; period <= k + 1; ++period) {
-    const double start = (period + g.phase) * g.period_s;
-    const double d = duty_of_period(g, period);
-    double edges[4] = {start, start + d * g.period_s, kNever, kNever};
+  const long double period = g.period_s;
+  const long k = static_cast<long>(std::floor(tp / period - g.phase));
+  for (long m = k; m <= k + 1; ++m) {
+    const long double start = (m + static_cast<long double>(g.phase)) * period;
+    const long double d = duty_of_period(g, m);
+    long double edges[4] = {start, start + d * period, kNeverL, kNeverL};
     if (g.kind == Kind::kLow) {
-      edges[2] = start + d * g.period_s + g.dead_time_s;
-      edges[3] = start + g.period_s - g.dead_time_s;
+      edges[2] = start + d * period + g.dead_time_s;
+      edges[3] = start + period - g.dead_time_s;
     }
-    double best = kNever;
-    for (double e : edges)
+    long double best = kNeverL;
+    for (long double e : edges)
       if (e > tp && e < best) best = e;
-    if (best < kNever) return best;
+    if (best < kNeverL) return best;
   }
-  return kNever;
+  return kNeverL;
 }
 
 DevicePattern GateBank::switch_pattern(double t) const {
@@ -104,9 +106,17 @@ DevicePattern GateBank::switch_pattern(double t) const {
 }
 
 double GateBank::next_edge_after(double t) const {
-  double best = kNever;
-  for (const auto& [bit, gate] : switch_gate_) best = std::min(best, next_edge(gates_[gate], t));
-  return best;
+  long double best = kNever;
+  const long double tp = just_after(t) - resolution_s_;  // keeps the ulp guard of just_after
+  for (const auto& [bit, gate] : switch_gate_) best = std::min(best, next_edge(gates_[gate], tp));
+  return static_cast<double>(best);
+}
+
+double GateBank::next_edge_after(long double origin, double tau) const {
+  long double best = kNever;
+  for (const auto& [bit, gate] : switch_gate_)
+    best = std::min(best, next_edge(gates_[gate], origin + tau));
+  return static_cast<double>(best - origin);
 }
 
 }  // namespace pulsewise::detail

@@ -886,13 +886,14 @@ struct Simulation::Impl {
   }
 
   // Advance from t to t_target, handling every device event in between.
-  bool advance_until(double t_target) {
+  // span: the length of the stretch, computed from period offsets (see run_cycle).
+  bool advance_until(double t_target, double span_s) {
     if (nonlinear) return advance_until_ode(t_target);
     const double time_resolution = options.event_time_tolerance * period_s;
     const double nominal = period_s / options.substeps_per_period;
     // Time within this stretch is kept relative to its start, so that many short pieces do not
     // each round to the spacing of doubles at the absolute time.
-    const double t_base = t, span = t_target - t_base;
+    const double t_base = t, span = span_s;
     double tau = 0.0;
     while (span - tau > time_resolution) {
       if (cycle.events > options.max_events_per_period)
@@ -974,6 +975,13 @@ struct Simulation::Impl {
   // in the last place of t (late in a long run the spacing of doubles exceeds 1e-12 T).
   double time_slack(double t) const {
     return std::max(1e-12 * period_s, 4 * (std::nextafter(t, kInf) - t));
+  }
+
+  // Next source breakpoint after origin + tau, relative to origin.
+  double next_breakpoint(long double origin, double tau) const {
+    const double absolute = static_cast<double>(origin + tau);
+    const double next = next_breakpoint(absolute);
+    return std::isinf(next) ? next : static_cast<double>(next - origin);
   }
 
   double next_breakpoint(double after) const {
@@ -1087,14 +1095,22 @@ struct Simulation::Impl {
     cycle.reset(recorded.size(), energy_elements.size());
   }
 
+  // Time inside a period is kept as an offset tau from the period start (origin, long double),
+  // so that every stretch between two scheduled events has the precision of the offset and not
+  // of the absolute time: errors do not grow with the length of the run.
   bool run_cycle(long k) {
-    const double start = k * period_s, end = (k + 1) * period_s;
+    const long double origin = static_cast<long double>(k) * period_s;
+    const double start = static_cast<double>(origin);
     cycle.reset(recorded.size(), energy_elements.size());
     cycle.stored_start = stored_energy();
     const Eigen::VectorXd x_start = z.head(n_x);
-    while (end - t > options.event_time_tolerance * period_s) {
-      const double t_next = std::min({gates->next_edge_after(t), next_breakpoint(t), end});
-      if (!advance_until(t_next)) return false;
+    double tau = 0.0;
+    while (period_s - tau > options.event_time_tolerance * period_s) {
+      const double tau_next =
+          std::min({gates->next_edge_after(origin, tau), next_breakpoint(origin, tau), period_s});
+      if (!advance_until(t + (tau_next - tau), tau_next - tau)) return false;
+      tau = tau_next;
+      t = static_cast<double>(origin + tau);
       if (!apply_schedule()) return false;
     }
     update_scales();

@@ -20,6 +20,10 @@ class GateBank {
   DevicePattern switch_pattern(double t) const;
   // The first gate edge strictly after t (+ resolution), or +infinity.
   double next_edge_after(double t) const;
+  // The same for t = origin + tau, returned relative to origin. Edges are computed in long
+  // double, so that the stretch from tau to the edge keeps the precision of tau rather than of
+  // the absolute time (late in a long run the spacing of doubles at t exceeds 1e-12 T).
+  double next_edge_after(long double origin, double tau) const;
   // Mask of the switch bits in a DevicePattern.
   DevicePattern switch_mask() const { return switch_mask_; }
 
@@ -33,7 +37,7 @@ class GateBank {
     const GateSchedule* schedule = nullptr;
   };
   bool on(const Gate& g, double t) const;
-  double next_edge(const Gate& g, double t) const;
+  long double next_edge(const Gate& g, long double t) const;
   double duty_of_period(const Gate& g, long k) const;
   double just_after(double t) const;
 
