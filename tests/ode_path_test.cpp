@@ -6,18 +6,13 @@
 
 #include "detail/nonlinear.hpp"
 #include "pulsewise/pulsewise.hpp"
+#include "test_circuits.hpp"
 
 namespace {
 
 using namespace pulsewise;
 
-PwmModulator pwm(double frequency_hz, double duty) {
-  PwmModulator m;
-  m.name = "pwm";
-  m.frequency_hz = frequency_hz;
-  m.duty_cycle = duty;
-  return m;
-}
+using test::pwm;
 
 Circuit dcm_boost() {
   Circuit c;

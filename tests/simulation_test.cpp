@@ -4,32 +4,14 @@
 #include <cmath>
 
 #include "pulsewise/pulsewise.hpp"
+#include "test_circuits.hpp"
 
 namespace {
 
 using namespace pulsewise;
 
-PwmModulator pwm(double frequency_hz, double duty) {
-  PwmModulator m;
-  m.name = "pwm";
-  m.frequency_hz = frequency_hz;
-  m.duty_cycle = duty;
-  return m;
-}
-
-// 12 V boost, K = 2L/(R T) = 0.0667 below Kcrit = D (1-D)^2 = 0.147: DCM
-// (Erickson & Maksimovic, Fundamentals of Power Electronics, 2nd ed., ch. 5).
-Circuit dcm_boost(PwmModulator modulator = pwm(200e3, 0.3)) {
-  Circuit c;
-  c.add_voltage_source("Vin", "in", "0", Waveform::constant(12.0))
-      .add_inductor("L1", "in", "sw", 10e-6)
-      .add_switch("S1", "sw", "0", "pwm", SwitchOptions{10e-3, kOpen})
-      .add_diode("D1", "sw", "out", DiodeOptions{10e-3, 0.0, kOpen})
-      .add_capacitor("C1", "out", "0", 47e-6)
-      .add_resistor("Rload", "out", "0", 60.0)
-      .add_modulator(std::move(modulator));
-  return c;
-}
+using test::dcm_boost;
+using test::pwm;
 
 TEST(SimulationOptions, DefaultsValidate) {
   EXPECT_NO_THROW(SimulationOptions{}.validate());

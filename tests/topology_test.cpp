@@ -4,31 +4,18 @@
 #include <algorithm>
 
 #include "pulsewise/pulsewise.hpp"
+#include "test_circuits.hpp"
 
 namespace {
 
 using namespace pulsewise;
 
 PwmModulator pwm(const std::string& name, double frequency_hz, double duty) {
-  PwmModulator m;
-  m.name = name;
-  m.frequency_hz = frequency_hz;
-  m.duty_cycle = duty;
-  return m;
+  return test::pwm(frequency_hz, duty, name);
 }
 
 // A valid boost converter that the tests break one way at a time.
-Circuit boost() {
-  Circuit c;
-  c.add_voltage_source("Vin", "in", "0", Waveform::constant(12.0))
-      .add_inductor("L1", "in", "sw", 10e-6)
-      .add_switch("S1", "sw", "0", "pwm", SwitchOptions{10e-3, kOpen})
-      .add_diode("D1", "sw", "out", DiodeOptions{10e-3, 0.0, kOpen})
-      .add_capacitor("C1", "out", "0", 47e-6)
-      .add_resistor("Rload", "out", "0", 60.0)
-      .add_modulator(pwm("pwm", 200e3, 0.3));
-  return c;
-}
+Circuit boost() { return test::dcm_boost(); }
 
 InputError expect_error(const Circuit& c) {
   try {
