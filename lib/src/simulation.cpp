@@ -28,6 +28,7 @@
 #include "detail/engine.hpp"
 #include "detail/nonlinear.hpp"
 #include "detail/polynomial.hpp"
+#include "detail/stiff_integrator.hpp"
 
 namespace pulsewise {
 
@@ -630,7 +631,22 @@ struct Simulation::Impl {
 
   using OdeState = std::vector<double>;
   using Dopri = boost::numeric::odeint::runge_kutta_dopri5<OdeState>;
-  using DenseStepper = boost::numeric::odeint::result_of::make_dense_output<Dopri>::type;
+
+  // The dense output of the current step, whatever the stepper (explicit or stiff).
+  class DenseStepper {
+   public:
+    virtual ~DenseStepper() = default;
+    virtual void calc_state(double t, OdeState& out) = 0;
+  };
+  template <class Stepper>
+  class DenseAdapter final : public DenseStepper {
+   public:
+    explicit DenseAdapter(Stepper& stepper) : stepper_(stepper) {}
+    void calc_state(double t, OdeState& out) override { stepper_.calc_state(t, out); }
+
+   private:
+    Stepper& stepper_;
+  };
 
   // Load currents n solving n = h(Vz z + Vn n), by Newton's method warm-started from the last
   // solution (Vn is zero when every load sits across a capacitor, and one step then suffices).
@@ -706,14 +722,14 @@ struct Simulation::Impl {
   class DensePiece final : public PieceView {
    public:
     Impl* impl = nullptr;
-    const DenseStepper* stepper = nullptr;
+    DenseStepper* stepper = nullptr;
     double t0 = 0, t1 = 0;
     double t_begin() const override { return t0; }
     double t_end() const override { return t1; }
     DevicePattern pattern() const override { return impl->pattern; }
     void recorded_values_at(double t, std::span<double> out) const override {
       OdeState zt(impl->n_z);
-      const_cast<DenseStepper*>(stepper)->calc_state(std::clamp(t, t0, t1), zt);
+      stepper->calc_state(std::clamp(t, t0, t1), zt);
       Eigen::VectorXd n(impl->n_n);
       impl->load_currents(*impl->current, zt.data(), n);
       for (std::size_t j = 0; j < out.size(); ++j)
@@ -833,41 +849,60 @@ struct Simulation::Impl {
     return b;  // the first instant known to be past the crossing
   }
 
+  // Stiff when the configuration's fastest mode is far faster than the switching period: an
+  // explicit pair would need steps of the order of that mode's time constant.
+  bool use_stiff_stepper() const {
+    if (options.ode_stepper == OdeStepper::kExplicit) return false;
+    if (options.ode_stepper == OdeStepper::kStiff) return true;
+    return current->max_step_s < period_s / 1000;
+  }
+
   bool advance_until_ode(double t_target) {
-    const double resolution = options.event_time_tolerance * period_s;
+    OdeState zv(z.data(), z.data() + n_z);
+    if (use_stiff_stepper()) {
+      detail::StiffIntegrator stepper(
+          n_z, options.ode_absolute_tolerance, options.ode_relative_tolerance,
+          [this](const double* zz, double* dz) { derivative(*current, zz, dz); });
+      return integrate_dense(stepper, 0, zv, t_target);
+    }
+    auto stepper = boost::numeric::odeint::make_dense_output(
+        options.ode_absolute_tolerance, options.ode_relative_tolerance, Dopri());
     auto system = [this](const OdeState& zz, OdeState& dz, double) {
       derivative(*current, zz.data(), dz.data());
     };
-    DenseStepper stepper = boost::numeric::odeint::make_dense_output(
-        options.ode_absolute_tolerance, options.ode_relative_tolerance, Dopri());
-    OdeState zv(z.data(), z.data() + n_z);
-    double dt = std::min(t_target - t, period_s / 50);
-    stepper.initialize(zv, t, dt);
+    return integrate_dense(stepper, system, zv, t_target);
+  }
+
+  template <class Stepper, class System>
+  bool integrate_dense(Stepper& stepper, System system, const OdeState& zv, double t_target) {
+    const double resolution = options.event_time_tolerance * period_s;
+    DenseAdapter<Stepper> dense(stepper);
+    stepper.initialize(zv, t, std::min(t_target - t, period_s / 50));
     while (t_target - t > resolution) {
       if (cycle.events > options.max_events_per_period)
         return fail(RunEnd::kChattering,
                     "more than " + std::to_string(options.max_events_per_period) +
                         " events in one period near t = " + std::to_string(t) + " s");
       if (stepper.current_time() + stepper.current_time_step() > t_target) {
-        const OdeState here = stepper.current_state();
+        const OdeState here(stepper.current_state());
         stepper.initialize(here, stepper.current_time(), t_target - stepper.current_time());
       }
       const auto [a, b_raw] = stepper.do_step(system);
       const double b = std::min(b_raw, t_target);
-      const auto [t_event, which] = find_dense_event(stepper, a, b);
+      const auto [t_event, which] = find_dense_event(dense, a, b);
       const double end = which >= 0 ? t_event : b;
-      accumulate_dense(stepper, a, end);
+      accumulate_dense(dense, a, end);
       record_interval(end - a);
       if (observer) {
         DensePiece view;
         view.impl = this;
-        view.stepper = &stepper;
+        view.stepper = &dense;
         view.t0 = a;
         view.t1 = end;
         observer->on_piece(view);
       }
       OdeState z_end(n_z);
-      stepper.calc_state(end, z_end);
+      dense.calc_state(end, z_end);
       for (int k = 0; k < n_z; ++k) z[k] = z_end[k];
       t = (which < 0 && t_target - end <= resolution) ? t_target : end;
       if (which >= 0) {

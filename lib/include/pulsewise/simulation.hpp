@@ -18,6 +18,13 @@
 
 namespace pulsewise {
 
+// Integrator of the ODE path (circuits with nonlinear elements).
+enum class OdeStepper {
+  kAuto,      // explicit, unless a configuration is stiff (fastest mode < 1/1000 of the period)
+  kExplicit,  // Dormand-Prince 5(4) with dense output
+  kStiff,     // Rosenbrock 4 with dense output (linearly implicit, L-stable)
+};
+
 // Options of one run. Every field has a default; validate() explains what is wrong.
 struct SimulationOptions {
   // Length of one cycle of the cycle loop, s. 0: the period of the first modulator.
@@ -63,6 +70,7 @@ struct SimulationOptions {
   // the Dormand-Prince 5(4) integrator, relative and absolute (in the states' own units).
   double ode_relative_tolerance = 1e-10;
   double ode_absolute_tolerance = 1e-12;
+  OdeStepper ode_stepper = OdeStepper::kAuto;
   // Use the ODE path even for a linear circuit (to check it against the exact path).
   bool force_ode_path = false;
 
