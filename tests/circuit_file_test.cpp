@@ -889,3 +889,27 @@ TEST(CircuitFile, ReadsTheSensorNodeBoostValuesAsWritten) {
 
 }  // namespace
 }  // namespace pulsewise
+
+namespace {
+
+using namespace pulsewise;
+
+TEST(CircuitFile, RunReadsTheOdeStepperAndItsTolerances) {
+  const CircuitFile f = parse_circuit_text(
+      appended({"[run]", "ode_stepper = \"stiff\"", "ode_relative_tolerance = 1e-8",
+                "ode_absolute_tolerance = 1e-9"}),
+      "ode.toml");
+  EXPECT_EQ(f.simulation.ode_stepper, OdeStepper::kStiff);
+  EXPECT_EQ(f.simulation.ode_relative_tolerance, 1e-8);
+  EXPECT_EQ(f.simulation.ode_absolute_tolerance, 1e-9);
+  EXPECT_EQ(parse_circuit_text(join(base_circuit()), "base.toml").simulation.ode_stepper,
+            OdeStepper::kAuto);
+}
+
+TEST(CircuitFile, RejectsAnUnknownOdeStepperNamingTheChoices) {
+  // Line 31: the base circuit has 29 lines, then "[run]".
+  expect_error(appended({"[run]", "ode_stepper = \"implicit\""}),
+               {ErrorKind::kInvalidOption, 31, "", "\"auto\", \"explicit\" or \"stiff\""});
+}
+
+}  // namespace

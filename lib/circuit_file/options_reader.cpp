@@ -57,6 +57,27 @@ void read_run_steady_state(const TableReader& run, const Circuit& circuit, Simul
   o.energy_accounting = run.boolean_or("energy_accounting", o.energy_accounting);
 }
 
+// The ODE path (circuits with saturating inductors or constant-power loads).
+void read_run_ode(const TableReader& run, SimulationOptions& o) {
+  o.ode_relative_tolerance =
+      run.value_or("ode_relative_tolerance", Unit::kNone, Range{0.0, 1e-2, true, true}, "1e-10",
+                   o.ode_relative_tolerance);
+  o.ode_absolute_tolerance =
+      run.value_or("ode_absolute_tolerance", Unit::kNone, Range{0.0, 1.0, true, true}, "1e-12",
+                   o.ode_absolute_tolerance);
+  const std::string stepper = run.string_or("ode_stepper", "auto");
+  if (stepper == "auto") {
+    o.ode_stepper = OdeStepper::kAuto;
+  } else if (stepper == "explicit") {
+    o.ode_stepper = OdeStepper::kExplicit;
+  } else if (stepper == "stiff") {
+    o.ode_stepper = OdeStepper::kStiff;
+  } else {
+    run.fail(ErrorKind::kInvalidOption, run.find("ode_stepper"),
+             "ode_stepper is \"" + stepper + "\"", "write \"auto\", \"explicit\" or \"stiff\"");
+  }
+}
+
 std::vector<std::string> read_signals(const TableReader& record, const Circuit& circuit) {
   std::vector<std::string> signals;
   const toml::array* list = record.array_or_null("signals", "[\"L1.i\", \"out.v\"]");
@@ -194,16 +215,18 @@ void check_signal(const Circuit& circuit, const std::string& signal, const Table
 SimulationOptions read_run(const toml::table* table, const std::string& file,
                            const Circuit& circuit) {
   SimulationOptions o;
-  TableReader run(table ? *table : kEmptyTable, file, "[run]",
-                  {"periods", "switching_period", "substeps_per_period", "max_step_norm",
-                   "event_time_tolerance", "device_condition_tolerance", "max_events_per_period",
-                   "max_consistency_iterations", "boundary_tolerance", "stop_at_steady_state",
-                   "steady_state_tolerance", "steady_state_periods", "output_signal",
-                   "settling_band", "cache", "energy_accounting"});
+  TableReader run(
+      table ? *table : kEmptyTable, file, "[run]",
+      {"periods", "switching_period", "substeps_per_period", "max_step_norm",
+       "event_time_tolerance", "device_condition_tolerance", "max_events_per_period",
+       "max_consistency_iterations", "boundary_tolerance", "stop_at_steady_state",
+       "steady_state_tolerance", "steady_state_periods", "output_signal", "settling_band", "cache",
+       "energy_accounting", "ode_stepper", "ode_relative_tolerance", "ode_absolute_tolerance"});
   run.set_value_error_kind(ErrorKind::kInvalidOption);
   read_run_lengths(run, o);
   read_run_tolerances(run, o);
   read_run_steady_state(run, circuit, o);
+  read_run_ode(run, o);
   return o;
 }
 
