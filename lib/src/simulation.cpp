@@ -395,8 +395,18 @@ struct Simulation::Impl {
     std::ostringstream out;
     const auto& els = model.circuit().elements();
     out << "switch '" << (last_switch_off >= 0 ? els[last_switch_off].name : std::string("?"))
-        << "' interrupts " << std::abs(current) << " A flowing in";
-    for (int el : group.cutset_inductors) out << " '" << els[el].name << "'";
+        << "' interrupts " << std::abs(current) << " A "
+        << (current > 0 ? "flowing into" : "flowing out of") << " node '" << group.nodes.front()
+        << "' through";
+    for (int el : group.cutset_inductors) {
+      const int state = static_cast<int>(
+          std::find(model.state_elements().begin(), model.state_elements().end(), el) -
+          model.state_elements().begin());
+      const double i = z[state];
+      out << " '" << els[el].name << "' (" << std::abs(i) << " A from '"
+          << (i >= 0 ? els[el].node_a : els[el].node_b) << "' to '"
+          << (i >= 0 ? els[el].node_b : els[el].node_a) << "')";
+    }
     for (int el : group.cutset_current_sources) out << " '" << els[el].name << "'";
     out << " at t = " << t << " s with no freewheeling path; add a freewheeling diode or a snubber"
         << " across node '" << group.nodes.front() << "'";
