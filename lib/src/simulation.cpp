@@ -111,7 +111,7 @@ struct Simulation::Impl {
   DevicePattern pattern = 0;
   const PatternData* current = nullptr;
   detail::TaylorPiece piece;
-  Eigen::MatrixXd signal_coefficients, event_coefficients, energy_coefficients;
+  Eigen::MatrixXd signal_coefficients, event_coefficients;
   Eigen::VectorXd scratch;
   CycleAccumulator cycle;
   RunSummary summary;
@@ -433,6 +433,14 @@ struct Simulation::Impl {
     return 0;
   }
 
+  // How badly a device condition g >= 0 is violated at t+: negative when g < -tol, or when g is
+  // within tol of zero and decreasing (more negative = worse); 0 when it holds.
+  static double violation(double g, double rate, double tol) {
+    const bool decreasing = g <= tol && rate < 0;
+    if (!(g < -tol || decreasing)) return 0.0;
+    return std::min(g, 0.0) / tol - (decreasing ? 1.0 : 0.0);
+  }
+
   // Most violated diode condition at t+: g < -tol, or g within tol and decreasing.
   int worst_violation(const PatternData& pd) {
     if (nonlinear) return worst_violation_nonlinear(pd);
@@ -444,9 +452,8 @@ struct Simulation::Impl {
       const double tol = tolerance_for(on ? SignalQuantity::kCurrent : SignalQuantity::kVoltage);
       const double g = pd.events.row(d).dot(z);
       const double rate = pd.events.row(d).dot(scratch);
-      const bool violated = g < -tol || (g <= tol && rate < 0);
-      const double measure = std::min(g, 0.0) / tol - (g <= tol && rate < 0 ? 1.0 : 0.0);
-      if (violated && measure < worst_value) {
+      const double measure = violation(g, rate, tol);
+      if (measure < worst_value) {
         worst_value = measure;
         worst = static_cast<int>(d);
       }
@@ -564,7 +571,7 @@ struct Simulation::Impl {
       const double y0 = c.dot(z0), y1 = c.dot(end_z);
       double lo = std::min(y0, y1), hi = std::max(y0, y1);
       const double d0 = order >= 1 ? c.dot(z1) : 0.0, d1 = c.dot(end_slope);
-      const bool turns = (d0 < 0) != (d1 < 0) && d0 != 0 && d1 != 0;
+      const bool turns = slope_changes_sign(d0, d1);
       double a[detail::TaylorPiece::kMaxOrder + 1];
       if (!use_gram)
         for (int k = 0; k <= order; ++k) a[k] = signal_coefficients(j, k);
@@ -590,16 +597,26 @@ struct Simulation::Impl {
     }
   }
 
+  // An interior extremum exists (at most one on a piece, see docs/method.md) only where the
+  // slope at the two ends has opposite signs.
+  static bool slope_changes_sign(double d0, double d1) {
+    return (d0 < 0) != (d1 < 0) && d0 != 0 && d1 != 0;
+  }
+
+  // Uses the moments of accumulate_piece(): end values and slopes come from there, and only an
+  // inductor whose slope changes sign inside the piece needs its polynomial.
   void track_inductor_peaks() {
     const int order = piece.order();
     double a[detail::TaylorPiece::kMaxOrder + 1];
     for (std::size_t k = 0; k < inductor_states.size(); ++k) {
-      for (int m = 0; m <= order; ++m) a[m] = piece.terms()(inductor_states[k], m);
-      double peak = std::max(std::abs(a[0]), std::abs(poly::eval(a, order, 1.0)));
-      const double d0 = poly::derivative(a, order, 0.0), d1 = poly::derivative(a, order, 1.0);
-      if ((d0 < 0) != (d1 < 0) && d0 != 0 && d1 != 0)
+      const int state = inductor_states[k];
+      double peak = std::max(std::abs(piece.terms()(state, 0)), std::abs(end_z[state]));
+      const double d0 = order >= 1 ? piece.terms()(state, 1) : 0.0, d1 = end_slope[state];
+      if (slope_changes_sign(d0, d1)) {
+        for (int m = 0; m <= order; ++m) a[m] = piece.terms()(state, m);
         peak = std::max(peak, std::abs(poly::eval(
                                   a, order, poly::stationary_point(a, order, 0.0, 1.0, 1e-15))));
+      }
       double& best = summary.startup.peak_inductor_current_a[k];
       best = std::max(best, peak);
     }
@@ -718,9 +735,8 @@ struct Simulation::Impl {
       const int r = static_cast<int>(d);
       const double g = row_value(pd.events, pd.events_n, r, z.data(), n);
       const double rate = (row_value(pd.events, pd.events_n, r, ahead.data(), n_ahead) - g) / dt;
-      const bool decreasing = g <= tol && rate < 0;
-      const double measure = std::min(g, 0.0) / tol - (decreasing ? 1.0 : 0.0);
-      if ((g < -tol || decreasing) && measure < worst_value) {
+      const double measure = violation(g, rate, tol);
+      if (measure < worst_value) {
         worst_value = measure;
         worst = r;
       }
@@ -958,7 +974,7 @@ struct Simulation::Impl {
       if (which >= 0) piece.truncate(std::max(s_event, 0.0));
       const double h_piece = piece.duration_s();
       finish_piece(h_piece);
-      piece.end_state(z);
+      z = end_z;  // the end state, summed by the piece's moments in finish_piece()
       tau = last ? span : tau + h_piece;
       t = last ? t_target : t_base + tau;
       if (which >= 0 && !state_event(which)) return false;
@@ -1136,7 +1152,6 @@ struct Simulation::Impl {
     pattern = gates->switch_pattern(0.0);
     signal_coefficients.resize(recorded.size(), detail::TaylorPiece::kMaxOrder + 1);
     event_coefficients.resize(diode_bits.size(), detail::TaylorPiece::kMaxOrder + 1);
-    energy_coefficients.resize(2 * energy_elements.size(), detail::TaylorPiece::kMaxOrder + 1);
     output_averages.clear();
     in_idle = false;
     cycle.reset(recorded.size(), energy_elements.size());

@@ -177,18 +177,4 @@ void TaylorPiece::moments(double* mean, double* end, double* end_slope, double* 
   });
 }
 
-void TaylorPiece::state_at(double s, Eigen::Ref<Eigen::VectorXd> z) const {
-  z = terms_.col(order_);
-  for (int k = order_ - 1; k >= 0; --k) z = z * s + terms_.col(k);
-}
-
-void TaylorPiece::end_state(Eigen::Ref<Eigen::VectorXd> z) const {
-  const int n = static_cast<int>(terms_.rows());
-  for (int i = 0; i < n; ++i) {
-    double v = 0.0;
-    for (int k = order_; k >= 0; --k) v += terms_(i, k);
-    z[i] = v;
-  }
-}
-
 }  // namespace pulsewise::detail

@@ -20,9 +20,6 @@ inline double derivative(const double* a, int order, double s) {
   return v;
 }
 
-// Integral over [0, 1].
-inline double integral(const double* a, int order);
-
 inline constexpr int kMaxTerms = 41;
 
 // 1 / (n + 1) for n = 0 .. 2 * kMaxTerms, so that integrals need no divisions.
@@ -111,12 +108,6 @@ inline double first_downcrossing(const double* a, int order, double noise, doubl
     p_lo = p_hi;
   }
   return -1.0;
-}
-
-inline double integral(const double* a, int order) {
-  double v = 0.0;
-  for (int k = 0; k <= order; ++k) v += a[k] * kReciprocal.value[k];
-  return v;
 }
 
 }  // namespace pulsewise::detail::poly

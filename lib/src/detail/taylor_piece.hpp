@@ -42,8 +42,6 @@ class TaylorPiece {
   // matrix G = integral of z z^T = sum_{k,l} z_k z_l^T / (k+l+1) (n x n, column-major), from
   // which the integral of any product of two linear functionals a.z and b.z is a^T G b.
   void moments(double* mean, double* end, double* end_slope, double* gram) const;
-  void state_at(double s, Eigen::Ref<Eigen::VectorXd> z) const;
-  void end_state(Eigen::Ref<Eigen::VectorXd> z) const;
 
  private:
   Eigen::MatrixXd terms_;
