@@ -23,6 +23,7 @@
 #include "pulsewise/simulation.hpp"
 #include "pulsewise/trace_file.hpp"
 #include "synthetic_feed.hpp"
+#include "test_output.hpp"
 
 extern char** environ;
 
@@ -31,15 +32,7 @@ namespace {
 
 using testing::SyntheticConverter;
 
-std::filesystem::path output_dir() {
-  const auto* test = ::testing::UnitTest::GetInstance()->current_test_info();
-  const std::filesystem::path dir = std::filesystem::path(PULSEWISE_BINARY_DIR) / "test-output" /
-                                    "hdf5" /
-                                    (std::string(test->test_suite_name()) + "." + test->name());
-  std::filesystem::remove_all(dir);
-  std::filesystem::create_directories(dir);
-  return dir;
-}
+std::filesystem::path output_dir() { return testing::fresh_output_dir("hdf5"); }
 
 // Rows the recorder must write for `periods` periods of the default synthetic feed with n grid
 // samples per period, when the only piece boundary on the grid is the period start (true for

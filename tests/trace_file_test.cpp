@@ -14,21 +14,14 @@
 #include "pulsewise/hdf5_recorder.hpp"
 #include "pulsewise/trace_file.hpp"
 #include "synthetic_feed.hpp"
+#include "test_output.hpp"
 
 namespace pulsewise {
 namespace {
 
 using testing::SyntheticConverter;
 
-std::filesystem::path output_dir() {
-  const auto* test = ::testing::UnitTest::GetInstance()->current_test_info();
-  const std::filesystem::path dir = std::filesystem::path(PULSEWISE_BINARY_DIR) / "test-output" /
-                                    "trace" /
-                                    (std::string(test->test_suite_name()) + "." + test->name());
-  std::filesystem::remove_all(dir);
-  std::filesystem::create_directories(dir);
-  return dir;
-}
+std::filesystem::path output_dir() { return testing::fresh_output_dir("trace"); }
 
 std::string write_trace(const std::filesystem::path& path, long periods, bool finish = true) {
   const SyntheticConverter c;
