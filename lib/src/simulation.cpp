@@ -36,6 +36,7 @@ using detail::CycleAccumulator;
 using detail::EnergyRole;
 using detail::EnergyTerm;
 using detail::PatternData;
+using detail::SparseRow;
 namespace poly = detail::poly;
 
 void detail::CycleAccumulator::reset(std::size_t signals, std::size_t energy_elements) {
@@ -127,6 +128,13 @@ struct Simulation::Impl {
   Eigen::VectorXd u_new, du_new;              // apply_schedule scratch
   Eigen::VectorXd mean, end_z, end_slope;     // moments of the current piece
   Eigen::MatrixXd gram;
+  CycleMetrics cycle_metrics;         // filled by finish_cycle(), reused every period
+  Eigen::VectorXd cycle_start_state;  // x at the start of the period
+  // Flat lookup in front of the pattern map: a run visits a handful of patterns.
+  std::vector<std::pair<DevicePattern, const PatternData*>> recent_patterns;
+  std::size_t pattern_hits = 0;              // lookups served by recent_patterns (cache hits too)
+  std::vector<double> piece_min, piece_max;  // extremes of each recorded signal on the piece
+  std::vector<int> inductor_recorded;        // recorded index of each inductor current, or -1
 
   Impl(const Circuit& circuit, SimulationOptions opts) : model(circuit), options(std::move(opts)) {
     options.validate();
@@ -216,6 +224,14 @@ struct Simulation::Impl {
       recorded.push_back(index);
     }
     for (int index : recorded) summary.recorded.push_back(model.signals()[index]);
+    piece_min.assign(recorded.size(), 0.0);
+    piece_max.assign(recorded.size(), 0.0);
+    for (int state : inductor_states) {
+      const int signal = model.element_current_signal(model.state_elements()[state]);
+      const auto it = std::find(recorded.begin(), recorded.end(), signal);
+      inductor_recorded.push_back(it == recorded.end() ? -1
+                                                       : static_cast<int>(it - recorded.begin()));
+    }
   }
 
   void set_up_energy() {
@@ -282,6 +298,7 @@ struct Simulation::Impl {
         pd.events(d, n_x + n_u - 1) += model.circuit().elements()[el].forward_voltage_v;
       }
     }
+    pd.event_rates = pd.events * pd.M;
     pd.energy.resize(2 * energy_elements.size(), n_z);
     for (std::size_t k = 0; k < energy_elements.size(); ++k) {
       const int el = energy_elements[k].first;
@@ -290,13 +307,19 @@ struct Simulation::Impl {
     }
     pd.power_forms.clear();
     for (std::size_t k = 0; k < energy_elements.size(); ++k) {
-      const Eigen::RowVectorXd v = pd.energy.row(2 * k), i = pd.energy.row(2 * k + 1);
       const EnergyTerm& term = energy_elements[k].second;
+      const SparseRow v(pd.energy.row(2 * k)), i(pd.energy.row(2 * k + 1));
       if (term.role == EnergyRole::kSeriesResistance)
-        pd.power_forms.push_back(term.resistance_ohm * i.transpose() * i);
+        pd.power_forms.push_back({i, i, term.resistance_ohm});
       else
-        pd.power_forms.push_back(0.5 * (v.transpose() * i + i.transpose() * v));
+        pd.power_forms.push_back({v, i, 1.0});
     }
+    pd.recorded_sparse.clear();
+    for (Eigen::Index j = 0; j < pd.recorded.rows(); ++j)
+      pd.recorded_sparse.emplace_back(pd.recorded.row(j));
+    pd.dynamic_rows = 0;
+    for (int row = 0; row < n_z; ++row)
+      if (pd.M.row(row).any()) pd.dynamic_rows = row + 1;
     const double norm = pd.M.cwiseAbs().colwise().sum().maxCoeff();
     pd.max_step_s = norm > 0 ? options.max_step_norm / norm : kInf;
     if (n_n > 0) fill_nonlinear_rows(cfg, pd);
@@ -338,15 +361,22 @@ struct Simulation::Impl {
   }
 
   const PatternData& data_for(DevicePattern p) {
+    if (options.cache)
+      for (const auto& [known, data] : recent_patterns)
+        if (known == p) {
+          ++pattern_hits;
+          return *data;
+        }
     const ConfigurationModel& cfg = model.configuration(p);
     if (!options.cache) {
       fill_pattern_data(cfg, uncached);
       return uncached;
     }
     auto it = patterns.find(p);
-    if (it != patterns.end()) return it->second;
+    if (it != patterns.end()) return it->second;  // beyond the flat list's 64 entries
     PatternData& pd = patterns[p];
     fill_pattern_data(cfg, pd);
+    if (recent_patterns.size() < 64) recent_patterns.push_back({p, &pd});
     return pd;
   }
 
@@ -444,14 +474,13 @@ struct Simulation::Impl {
   // Most violated diode condition at t+: g < -tol, or g within tol and decreasing.
   int worst_violation(const PatternData& pd) {
     if (nonlinear) return worst_violation_nonlinear(pd);
-    scratch.noalias() = pd.M * z;
     int worst = -1;
     double worst_value = 0.0;
     for (std::size_t d = 0; d < diode_bits.size(); ++d) {
       const bool on = (pattern >> diode_bits[d]) & 1u;
       const double tol = tolerance_for(on ? SignalQuantity::kCurrent : SignalQuantity::kVoltage);
       const double g = pd.events.row(d).dot(z);
-      const double rate = pd.events.row(d).dot(scratch);
+      const double rate = pd.event_rates.row(d).dot(z);
       const double measure = violation(g, rate, tol);
       if (measure < worst_value) {
         worst_value = measure;
@@ -542,19 +571,6 @@ struct Simulation::Impl {
   // of z gives every average, the Gram matrix of z every integral of a product (RMS, power), and
   // only a signal whose slope changes sign inside the piece needs its own polynomial (for the
   // interior extremum).
-  // c G c^T without temporaries.
-  static double quadratic_form(const Eigen::Ref<const Eigen::RowVectorXd>& c,
-                               const Eigen::MatrixXd& g) {
-    const Eigen::Index n = g.rows();
-    double sum = 0.0;
-    for (Eigen::Index j = 0; j < n; ++j) {
-      double column = 0.0;
-      for (Eigen::Index i = 0; i < n; ++i) column += g(i, j) * c[i];
-      sum += column * c[j];
-    }
-    return sum;
-  }
-
   void accumulate_piece(double h) {
     const int order = piece.order();
     // The Gram matrix costs about (K+1)^2 n; per-signal polynomials (K+1)^2 each. Energy
@@ -562,39 +578,47 @@ struct Simulation::Impl {
     const bool use_gram =
         options.energy_accounting || recorded.size() > static_cast<std::size_t>(n_z);
     piece.moments(mean.data(), end_z.data(), end_slope.data(), use_gram ? gram.data() : nullptr);
-    const Eigen::Map<const Eigen::VectorXd> z0(piece.terms().data(), n_z);
-    const Eigen::Map<const Eigen::VectorXd> z1(piece.terms().data() + n_z, n_z);
-    if (!use_gram) piece.project(current->recorded, signal_coefficients);
+    const double* z0 = piece.terms().data();
+    const double* z1 = z0 + n_z;
+    double a[detail::TaylorPiece::kMaxOrder + 1];
     for (std::size_t j = 0; j < recorded.size(); ++j) {
-      const auto c = current->recorded.row(j);
-      cycle.integral[j] += h * c.dot(mean);
-      const double y0 = c.dot(z0), y1 = c.dot(end_z);
-      double lo = std::min(y0, y1), hi = std::max(y0, y1);
-      const double d0 = order >= 1 ? c.dot(z1) : 0.0, d1 = c.dot(end_slope);
+      const SparseRow& c = current->recorded_sparse[j];
+      const double y0 = dot(c, z0), y1 = dot(c, end_z.data());
+      const double d0 = order >= 1 ? dot(c, z1) : 0.0, d1 = dot(c, end_slope.data());
       const bool turns = slope_changes_sign(d0, d1);
-      double a[detail::TaylorPiece::kMaxOrder + 1];
-      if (!use_gram)
-        for (int k = 0; k <= order; ++k) a[k] = signal_coefficients(j, k);
-      else if (turns)
-        for (int k = 0; k <= order; ++k)
-          a[k] = c.dot(Eigen::Map<const Eigen::VectorXd>(piece.terms().data() + k * n_z, n_z));
+      if (!use_gram || turns) piece.project_row(current->recorded.row(j).data(), a);
+      cycle.integral[j] += h * dot(c, mean.data());
       cycle.square_integral[j] +=
-          h * (use_gram ? quadratic_form(c, gram) : poly::product_integral(a, a, order));
+          h * (use_gram ? detail::bilinear(current->recorded_sparse[j], gram.data(), n_z,
+                                           current->recorded_sparse[j])
+                        : poly::product_integral(a, a, order));
+      double lo = std::min(y0, y1), hi = std::max(y0, y1);
       if (turns) {
-        const double v = poly::eval(a, order, poly::stationary_point(a, order, 0.0, 1.0, 1e-15));
+        const double v = poly::eval(
+            a, order,
+            poly::stationary_point(a, order, 0.0, 1.0, 1e-15, poly::secant_point(0, d0, 1, d1)));
         lo = std::min(lo, v);
         hi = std::max(hi, v);
       }
+      piece_min[j] = lo;
+      piece_max[j] = hi;
       cycle.min[j] = std::min(cycle.min[j], lo);
       cycle.max[j] = std::max(cycle.max[j], hi);
     }
     if (!options.energy_accounting) return;
     for (std::size_t k = 0; k < energy_elements.size(); ++k) {
-      const double e = h * current->power_forms[k].cwiseProduct(gram).sum();
+      const detail::PowerForm& form = current->power_forms[k];
+      const double e = h * form.weight * detail::bilinear(form.a, gram.data(), n_z, form.b);
       (energy_elements[k].second.role == EnergyRole::kSource ? cycle.energy_in
                                                              : cycle.dissipated) += e;
       cycle.element_energy[k] += e;
     }
+  }
+
+  static double dot(const SparseRow& row, const double* z) {
+    double v = 0.0;
+    for (std::size_t p = 0; p < row.index.size(); ++p) v += row.value[p] * z[row.index[p]];
+    return v;
   }
 
   // An interior extremum exists (at most one on a piece, see docs/method.md) only where the
@@ -604,20 +628,27 @@ struct Simulation::Impl {
   }
 
   // Uses the moments of accumulate_piece(): end values and slopes come from there, and only an
-  // inductor whose slope changes sign inside the piece needs its polynomial.
+  // inductor whose slope changes sign inside the piece needs its polynomial. An inductor current
+  // that is also a recorded signal takes the extremes accumulate_piece() just found.
   void track_inductor_peaks() {
     const int order = piece.order();
     double a[detail::TaylorPiece::kMaxOrder + 1];
     for (std::size_t k = 0; k < inductor_states.size(); ++k) {
+      double& best = summary.startup.peak_inductor_current_a[k];
+      const int j = inductor_recorded[k];
+      if (j >= 0) {
+        best = std::max({best, std::abs(piece_min[j]), std::abs(piece_max[j])});
+        continue;
+      }
       const int state = inductor_states[k];
       double peak = std::max(std::abs(piece.terms()(state, 0)), std::abs(end_z[state]));
       const double d0 = order >= 1 ? piece.terms()(state, 1) : 0.0, d1 = end_slope[state];
       if (slope_changes_sign(d0, d1)) {
         for (int m = 0; m <= order; ++m) a[m] = piece.terms()(state, m);
-        peak = std::max(peak, std::abs(poly::eval(
-                                  a, order, poly::stationary_point(a, order, 0.0, 1.0, 1e-15))));
+        const double s =
+            poly::stationary_point(a, order, 0.0, 1.0, 1e-15, poly::secant_point(0, d0, 1, d1));
+        peak = std::max(peak, std::abs(poly::eval(a, order, s)));
       }
-      double& best = summary.startup.peak_inductor_current_a[k];
       best = std::max(best, peak);
     }
   }
@@ -711,7 +742,7 @@ struct Simulation::Impl {
   }
 
   // Value of a row set (signals, events or energy rows) at state zp, including the loads.
-  double row_value(const Eigen::MatrixXd& rows, const Eigen::MatrixXd& rows_n, int r,
+  double row_value(const detail::RowMatrix& rows, const Eigen::MatrixXd& rows_n, int r,
                    const double* zp, const Eigen::VectorXd& n) const {
     const Eigen::Map<const Eigen::VectorXd> zz(zp, n_z);
     double v = rows.row(r).dot(zz);
@@ -967,7 +998,7 @@ struct Simulation::Impl {
       const double remaining = span - tau;
       double h = std::min({remaining, nominal, current->max_step_s});
       if (remaining - h < time_resolution) h = remaining;
-      if (!piece.expand(current->M, z, h))
+      if (!piece.expand(current->M, z, h, current->dynamic_rows))
         return fail(RunEnd::kNoConsistentConfiguration, "series expansion did not converge");
       const auto [s_event, which] = find_event(time_resolution / h);
       const bool last = which < 0 && h == remaining;
@@ -1037,7 +1068,8 @@ struct Simulation::Impl {
   // Instants closer than this to t count as t: 1e-12 of the period, but never below a few units
   // in the last place of t (late in a long run the spacing of doubles exceeds 1e-12 T).
   double time_slack(double t) const {
-    return std::max(1e-12 * period_s, 4 * (std::nextafter(t, kInf) - t));
+    // |t| eps lies between one and two units in the last place of t.
+    return std::max(1e-12 * period_s, 4 * std::numeric_limits<double>::epsilon() * std::abs(t));
   }
 
   // Next source breakpoint after origin + tau, relative to origin.
@@ -1088,8 +1120,8 @@ struct Simulation::Impl {
     return cycle.forced_off_near_zero ? ConductionMode::kBoundary : ConductionMode::kCcm;
   }
 
-  CycleMetrics finish_cycle(long index, double start, const Eigen::VectorXd& x_start) {
-    CycleMetrics m;
+  // Fills m in place: its vectors keep their capacity from period to period.
+  void finish_cycle(long index, double start, const Eigen::VectorXd& x_start, CycleMetrics& m) {
     m.index = index;
     m.start_time_s = start;
     m.mode = mode_of_cycle();
@@ -1103,6 +1135,7 @@ struct Simulation::Impl {
       m.signals[j].max = cycle.max[j];
     }
     m.energy_in_j = cycle.energy_in;
+    m.element_energy.clear();
     if (options.energy_accounting) {
       m.element_energy.resize(energy_elements.size());
       for (std::size_t k = 0; k < energy_elements.size(); ++k)
@@ -1118,7 +1151,6 @@ struct Simulation::Impl {
                         std::abs(z[s] - x_start[s]) / (inductor ? current_scale : voltage_scale));
     }
     m.state_change = change;
-    return m;
   }
 
   void start(Observer* obs) {
@@ -1165,7 +1197,8 @@ struct Simulation::Impl {
     const double start = static_cast<double>(origin);
     cycle.reset(recorded.size(), energy_elements.size());
     cycle.stored_start = stored_energy();
-    const Eigen::VectorXd x_start = z.head(n_x);
+    Eigen::VectorXd& x_start = cycle_start_state;
+    x_start = z.head(n_x);
     double tau = 0.0;
     while (period_s - tau > options.event_time_tolerance * period_s) {
       const double tau_next =
@@ -1176,7 +1209,8 @@ struct Simulation::Impl {
       if (!apply_schedule()) return false;
     }
     update_scales();
-    CycleMetrics m = finish_cycle(k, start, x_start);
+    CycleMetrics& m = cycle_metrics;
+    finish_cycle(k, start, x_start, m);
     if (output_recorded >= 0) {
       const SignalStats& out = m.signals[output_recorded];
       output_averages.push_back(static_cast<float>(out.average));
@@ -1184,7 +1218,7 @@ struct Simulation::Impl {
       output_min = k == 0 ? out.min : std::min(output_min, out.min);
     }
     if (observer) observer->on_cycle(m);
-    summary.last_cycle = std::move(m);
+    summary.last_cycle = m;  // copy-assignment reuses the capacity of last_cycle
     summary.cycles = k + 1;
     return true;
   }
@@ -1238,7 +1272,7 @@ struct Simulation::Impl {
     summary.end_time_s = t;
     summary.final_state = z.head(n_x);
     summary.configurations_built = model.configurations_built();
-    summary.cache_hits = model.cache_hits();
+    summary.cache_hits = model.cache_hits() + pattern_hits;
     summary.wall_time_s =
         std::chrono::duration<double>(std::chrono::steady_clock::now() - wall_start).count();
     if (observer) observer->on_finish(summary);

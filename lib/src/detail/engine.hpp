@@ -14,17 +14,52 @@
 
 namespace pulsewise::detail {
 
+// The non-zero entries of a row over z. A signal or an element power touches a few entries of z,
+// so its product with the Gram matrix costs a few terms instead of n^2.
+struct SparseRow {
+  std::vector<int> index;
+  std::vector<double> value;
+  explicit SparseRow(const Eigen::Ref<const Eigen::RowVectorXd>& row = Eigen::RowVectorXd()) {
+    for (Eigen::Index j = 0; j < row.size(); ++j)
+      if (row[j] != 0.0) {
+        index.push_back(static_cast<int>(j));
+        value.push_back(row[j]);
+      }
+  }
+};
+
+// a^T G b for the symmetric n x n matrix G (column-major).
+inline double bilinear(const SparseRow& a, const double* g, int n, const SparseRow& b) {
+  double sum = 0.0;
+  for (std::size_t q = 0; q < b.index.size(); ++q) {
+    const double* column = g + b.index[q] * n;
+    double inner = 0.0;
+    for (std::size_t p = 0; p < a.index.size(); ++p) inner += a.value[p] * column[a.index[p]];
+    sum += inner * b.value[q];
+  }
+  return sum;
+}
+
+// The power of one element as the bilinear form weight * (a.z) (b.z): (v, i, 1) for sources and
+// v-i elements, (i, i, R) for a series resistance.
+struct PowerForm {
+  SparseRow a, b;
+  double weight = 1.0;
+};
+
 // What the event engine needs of one configuration, over the augmented state
 // z = [x; u; du/dt of the ramping inputs].
 struct PatternData {
   const ConfigurationModel* model = nullptr;
-  Eigen::MatrixXd M;         // dz/dt = M z
-  Eigen::MatrixXd recorded;  // rows: recorded signals
-  Eigen::MatrixXd events;    // rows: device conditions g >= 0 (one per diode)
-  Eigen::MatrixXd energy;    // rows: (v, i) of each element taking part in the energy balance
-  // Power of each energy element as a quadratic form of z: p = z^T Q z (symmetric).
-  std::vector<Eigen::MatrixXd> power_forms;
-  double max_step_s = 0.0;  // sub-step bound from ||M||_1
+  Eigen::MatrixXd M;      // dz/dt = M z
+  int dynamic_rows = 0;   // rows of z that move: M is zero below them (see TaylorPiece)
+  RowMatrix recorded;     // rows: recorded signals
+  RowMatrix events;       // rows: device conditions g >= 0 (one per diode)
+  RowMatrix event_rates;  // rows: their time derivatives dg/dt = (events M) z
+  RowMatrix energy;       // rows: (v, i) of each element taking part in the energy balance
+  std::vector<SparseRow> recorded_sparse;  // the rows of `recorded`
+  std::vector<PowerForm> power_forms;      // per energy element
+  double max_step_s = 0.0;                 // sub-step bound from ||M||_1
   // ODE path: the nonlinear currents n enter as dz/dt += E n, y += F n, g += events_n n.
   Eigen::MatrixXd E, recorded_n, events_n, energy_n;
   Eigen::MatrixXd load_voltage_z, load_voltage_n;  // load voltages = Vz z + Vn n

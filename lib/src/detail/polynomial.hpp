@@ -46,11 +46,13 @@ inline double product_integral(const double* a, const double* b, int order) {
 // Root of f in [lo, hi] where f(lo) and f(hi) have opposite signs (or one is zero), by Newton's
 // method safeguarded with bisection (the bracket always shrinks; a Newton step that leaves it is
 // replaced by bisection). Converges quadratically near a simple root. `Value` gives f, `Slope` f'.
+// `start` is the first iterate (the midpoint when it is not strictly inside the bracket).
 template <class Value, class Slope>
-double safeguarded_newton(Value f, Slope df, double lo, double hi, double s_tolerance) {
+double safeguarded_newton(Value f, Slope df, double lo, double hi, double s_tolerance,
+                          double start = -1.0) {
   double f_lo = f(lo);
   if (f_lo == 0.0) return lo;
-  double s = 0.5 * (lo + hi);
+  double s = start > lo && start < hi ? start : 0.5 * (lo + hi);
   for (int iter = 0; iter < 100; ++iter) {
     const double fs = f(s);
     if (fs == 0.0) return s;
@@ -69,21 +71,30 @@ double safeguarded_newton(Value f, Slope df, double lo, double hi, double s_tole
   return s;
 }
 
-inline double root(const double* a, int order, double lo, double hi, double s_tolerance) {
-  return safeguarded_newton([&](double s) { return eval(a, order, s); },
-                            [&](double s) { return derivative(a, order, s); }, lo, hi, s_tolerance);
+// The regula falsi point of a bracket: a first iterate that is already close for the nearly
+// linear functions of a short piece.
+inline double secant_point(double lo, double f_lo, double hi, double f_hi) {
+  return f_lo != f_hi ? lo + (hi - lo) * f_lo / (f_lo - f_hi) : 0.5 * (lo + hi);
 }
 
-// Root of the derivative (an extremum) in [lo, hi], given a sign change of p' there.
-inline double stationary_point(const double* a, int order, double lo, double hi,
-                               double s_tolerance) {
+inline double root(const double* a, int order, double lo, double hi, double s_tolerance,
+                   double start = -1.0) {
+  return safeguarded_newton([&](double s) { return eval(a, order, s); },
+                            [&](double s) { return derivative(a, order, s); }, lo, hi, s_tolerance,
+                            start);
+}
+
+// Root of the derivative (an extremum) in [lo, hi], given a sign change of p' there; `start` as
+// for safeguarded_newton().
+inline double stationary_point(const double* a, int order, double lo, double hi, double s_tolerance,
+                               double start = -1.0) {
   auto second = [&](double s) {
     double v = 0.0;
     for (int k = order; k >= 2; --k) v = v * s + k * (k - 1) * a[k];
     return v;
   };
   return safeguarded_newton([&](double s) { return derivative(a, order, s); }, second, lo, hi,
-                            s_tolerance);
+                            s_tolerance, start);
 }
 
 // Earliest s in (0, 1] where p crosses from >= 0 to < -noise. Relies on at most one extremum of
@@ -95,14 +106,14 @@ inline double first_downcrossing(const double* a, int order, double noise, doubl
   const double d0 = derivative(a, order, 0.0), d1 = derivative(a, order, 1.0);
   double split = -1.0;
   if ((d0 < 0) != (d1 < 0) && d0 != 0.0 && d1 != 0.0)
-    split = stationary_point(a, order, 0.0, 1.0, s_tolerance);
+    split = stationary_point(a, order, 0.0, 1.0, s_tolerance, secant_point(0.0, d0, 1.0, d1));
   double lo = 0.0, p_lo = p0;
   for (double hi : {split, 1.0}) {
     if (hi <= lo) continue;
     const double p_hi = hi == 1.0 ? p1 : eval(a, order, hi);
     if (p_hi < -noise) {
       if (p_lo <= 0.0) return lo;  // already violated at the start of the monotone part
-      return root(a, order, lo, hi, s_tolerance);
+      return root(a, order, lo, hi, s_tolerance, secant_point(lo, p_lo, hi, p_hi));
     }
     lo = hi;
     p_lo = p_hi;

@@ -8,35 +8,48 @@
 // series is summed until two consecutive terms fall below the unit roundoff relative to the
 // running sum (their stopping test), which for theta = 0.5 takes about 14 terms. Keeping the
 // terms z_k = (M h)^k z0 / k! turns every linear functional of the state into a polynomial in s,
-// so events, integrals and extrema are found exactly on that polynomial. Cost per piece: one
-// matrix-vector product per term.
+// so events, integrals and extrema are found exactly on that polynomial.
+//
+// Only the leading `dynamic_rows` entries of z can change within a piece: the rows of M past
+// them are zero (constant inputs), so every term after z_0 vanishes there. The series and the
+// moments run over that block alone, which for a converter with constant sources is the state
+// vector x: the cost per term is one (n_x x n_x) matrix-vector product, not (n_z x n_z).
 #pragma once
 
 #include <Eigen/Dense>
 
 namespace pulsewise::detail {
 
+// Rows of linear functionals of z (signals, device conditions), stored row by row so that each
+// row is contiguous.
+using RowMatrix = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
+
 class TaylorPiece {
  public:
   static constexpr int kMaxOrder = 40;
 
   explicit TaylorPiece(int dimension = 0) { resize(dimension); }
-  void resize(int dimension) { terms_.resize(dimension, kMaxOrder + 1); }
+  void resize(int dimension);
 
-  // Expand exp(M h s) z0. Returns false when the series did not converge within kMaxOrder terms
-  // (||M h|| far too large: a caller bug, the sub-step bound prevents it).
-  bool expand(const Eigen::MatrixXd& M, const Eigen::VectorXd& z0, double h);
+  // Expand exp(M h s) z0, where rows dynamic_rows.. of M are zero. Returns false when the series
+  // did not converge within kMaxOrder terms (||M h|| far too large: a caller bug, the sub-step
+  // bound prevents it).
+  bool expand(const Eigen::MatrixXd& M, const Eigen::VectorXd& z0, double h, int dynamic_rows);
   // Restrict the piece to [0, s_end] and renormalise it to [0, 1].
   void truncate(double s_end);
 
   int order() const { return order_; }
+  int dynamic_rows() const { return dynamic_; }
   double duration_s() const { return h_; }
-  // Column k holds z_k; the state at s is sum_k z_k s^k.
+  // Column k holds z_k; the state at s is sum_k z_k s^k. Entries past dynamic_rows() are zero
+  // for k >= 1.
   const Eigen::MatrixXd& terms() const { return terms_; }
   // out(r, k) = rows.row(r) . z_k for k = 0..order(): the polynomial coefficients of linear
   // functionals of the state. Plain loops: the matrices are tiny and a general product's
   // packing overhead dominates at these sizes.
-  void project(const Eigen::MatrixXd& rows, Eigen::MatrixXd& out) const;
+  void project(const RowMatrix& rows, Eigen::MatrixXd& out) const;
+  // Coefficients of one functional: a[k] = row . z_k, k = 0..order().
+  void project_row(const double* row, double* a) const;
   // Exact moments of the piece over s in [0, 1]: mean = sum z_k / (k+1) (the integral of z),
   // end = z(1), end_slope = dz/ds at s = 1 = sum k z_k, and when gram is non-null the Gram
   // matrix G = integral of z z^T = sum_{k,l} z_k z_l^T / (k+l+1) (n x n, column-major), from
@@ -45,7 +58,13 @@ class TaylorPiece {
 
  private:
   Eigen::MatrixXd terms_;
+  mutable Eigen::VectorXd scratch_;  // the generic kernels' accumulators
   int order_ = 0;
+  int dynamic_ = 0;
+  // Keeps the terms past the dynamic block zero without clearing them per term: rows
+  // zero_from_.. are zero in columns 1..kMaxOrder, and no expansion has written past column
+  // written_order_ (so a smaller block only clears that much).
+  int zero_from_ = 0, written_order_ = 0;
   double h_ = 0.0;
 };
 
