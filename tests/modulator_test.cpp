@@ -135,3 +135,53 @@ TEST(Modulator, FullDutyKeepsTheGateOnWithoutEdgesInsideThePeriod) {
 }
 
 }  // namespace
+
+// The cycle loop reuses one period's edge offsets once the gates repeat (gate_bank.hpp). The
+// reused offsets must be the instants the definitions give, in every period, including the ones
+// a phase shift pulls in from the gate period before and the ones after a soft start ramp.
+TEST(Modulator, ReusedPeriodOffsetsMatchTheDirectEdgeSearchInEveryPeriod) {
+  Circuit c;
+  c.add_voltage_source("V1", "a", "0", Waveform::constant(1.0))
+      .add_switch("Sa", "a", "b", "p.high")
+      .add_switch("Sb", "b", "0", "p.low")
+      .add_switch("Sc", "a", "d", "q")
+      .add_resistor("R1", "b", "0", 1.0)
+      .add_resistor("R2", "d", "0", 1.0);
+  ComplementaryPwm pair;
+  pair.name = "p";
+  pair.frequency_hz = 1 / kT;
+  pair.duty_cycle = 0.4;
+  pair.dead_time_s = 0.03 * kT;
+  pair.soft_start = SoftStart{0.1, 3};
+  c.add_modulator(pair);
+  PwmModulator shifted;
+  shifted.name = "q";
+  shifted.frequency_hz = 1 / kT;
+  shifted.duty_cycle = 0.35;
+  shifted.phase = 0.8;  // its on-interval wraps across the run period boundary
+  c.add_modulator(shifted);
+  GateBank reused(c, devices_of(c), 1e-12 * kT), direct(c, devices_of(c), 1e-12 * kT);
+  int compared = 0;
+  for (long k = 0; k < 12; ++k) {
+    const long double origin = static_cast<long double>(k) * kT;
+    std::vector<double> a, b;
+    for (double tau = 0.0;;) {
+      const double e = reused.next_edge_in_period(k, origin, tau, kT);
+      if (!(e < kT * (1 - 1e-9))) break;
+      a.push_back(e);
+      tau = e;
+    }
+    for (double tau = 0.0;;) {
+      const double e = direct.next_edge_after(origin, tau);
+      if (!(e < kT * (1 - 1e-9))) break;
+      b.push_back(e);
+      tau = e;
+    }
+    ASSERT_EQ(a.size(), b.size()) << "period " << k;
+    for (std::size_t i = 0; i < a.size(); ++i, ++compared)
+      EXPECT_NEAR(a[i], b[i], 1e-15 * kT) << "period " << k << ", edge " << i;
+  }
+  // 5 edges inside each period: the pair's high-side off, low-side on and low-side off (its
+  // high-side on is the period start itself), and q's off at 0.15 T and on at 0.8 T.
+  EXPECT_EQ(compared, 12 * 5);
+}

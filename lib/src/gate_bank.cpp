@@ -38,6 +38,40 @@ GateBank::GateBank(const Circuit& circuit, const std::vector<int>& devices,
     }
     switch_mask_ |= DevicePattern{1} << bit;
   }
+  // Edges inside a run period can belong to the gate period before it (phase shifts), so the
+  // offsets repeat from one period after the longest duty ramp.
+  for (const auto& [bit, gate] : switch_gate_) {
+    const Gate& g = gates_[gate];
+    if (g.kind == Kind::kSchedule) {
+      periodic_from_ = -1;
+      break;
+    }
+    periodic_from_ = std::max(periodic_from_, g.soft_start.periods + 1);
+  }
+}
+
+double GateBank::next_edge_in_period(long period_index, long double origin, double tau,
+                                     double period_s) const {
+  if (periodic_from_ < 0 || period_index < periodic_from_) return next_edge_after(origin, tau);
+  if (offsets_period_s_ != period_s) {
+    for (const auto& [bit, gate] : switch_gate_)
+      if (gates_[gate].period_s != period_s) {
+        periodic_from_ = -1;  // gates of other periods: decided once
+        return next_edge_after(origin, tau);
+      }
+    periodic_offsets_.clear();
+    for (double x = 0.0;;) {
+      const double e = next_edge_after(origin, x);
+      if (!(e < period_s - resolution_s_)) break;
+      periodic_offsets_.push_back(e);
+      x = e;
+    }
+    offsets_period_s_ = period_s;
+  }
+  const double slack = std::max<double>(resolution_s_, 8 * std::abs(origin + tau) * 1e-19L);
+  for (double e : periodic_offsets_)
+    if (e > tau + slack) return e;
+  return kNever;
 }
 
 double GateBank::duty_of_period(const Gate& g, long k) const {

@@ -1201,8 +1201,8 @@ struct Simulation::Impl {
     x_start = z.head(n_x);
     double tau = 0.0;
     while (period_s - tau > options.event_time_tolerance * period_s) {
-      const double tau_next =
-          std::min({gates->next_edge_after(origin, tau), next_breakpoint(origin, tau), period_s});
+      const double tau_next = std::min({gates->next_edge_in_period(k, origin, tau, period_s),
+                                        next_breakpoint(origin, tau), period_s});
       if (!advance_until(t + (tau_next - tau), tau_next - tau)) return false;
       tau = tau_next;
       t = static_cast<double>(origin + tau);

@@ -24,6 +24,11 @@ class GateBank {
   // double, so that the stretch from tau to the edge keeps the precision of tau rather than of
   // the absolute time (late in a long run the spacing of doubles at t exceeds 1e-12 T).
   double next_edge_after(long double origin, double tau) const;
+  // next_edge_after(origin, tau) inside run period `period_index` of length period_s. Once
+  // every switch gate repeats with that period and no duty ramps any more, the edge offsets of
+  // one period are found once and reused: the same offsets, without the long-double search.
+  double next_edge_in_period(long period_index, long double origin, double tau,
+                             double period_s) const;
   // Mask of the switch bits in a DevicePattern.
   DevicePattern switch_mask() const { return switch_mask_; }
 
@@ -45,6 +50,11 @@ class GateBank {
   std::vector<std::pair<int, int>> switch_gate_;  // (device bit, gate index)
   DevicePattern switch_mask_ = 0;
   double resolution_s_;
+  // The reused offsets of next_edge_in_period(): periodic_from_ is the first run period from
+  // which they hold (-1: never, a schedule drives a switch).
+  mutable long periodic_from_ = 0;
+  mutable double offsets_period_s_ = 0.0;
+  mutable std::vector<double> periodic_offsets_;
 };
 
 }  // namespace pulsewise::detail
