@@ -569,7 +569,12 @@ struct Simulation::Impl {
       const bool on = (pattern >> diode_bits[d]) & 1u;
       const double noise = tolerance_for(on ? SignalQuantity::kCurrent : SignalQuantity::kVoltage);
       double coeffs[detail::TaylorPiece::kMaxOrder + 1];
-      for (int k = 0; k <= order; ++k) coeffs[k] = event_coefficients(d, k);
+      double variation = 0.0;  // bounds |g(s) - g(0)| on [0, 1]
+      for (int k = 0; k <= order; ++k) {
+        coeffs[k] = event_coefficients(d, k);
+        if (k > 0) variation += std::abs(coeffs[k]);
+      }
+      if (coeffs[0] - variation > 0) continue;  // g stays positive: no crossing on the piece
       const double s = poly::first_downcrossing(coeffs, order, noise, s_tolerance);
       if (s >= 0 && s < best) {
         best = s;
