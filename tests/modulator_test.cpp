@@ -160,23 +160,22 @@ TEST(Modulator, ReusedPeriodOffsetsMatchTheDirectEdgeSearchInEveryPeriod) {
   shifted.duty_cycle = 0.35;
   shifted.phase = 0.8;  // its on-interval wraps across the run period boundary
   c.add_modulator(shifted);
-  GateBank reused(c, devices_of(c), 1e-12 * kT), direct(c, devices_of(c), 1e-12 * kT);
+  GateBank bank(c, devices_of(c), 1e-12 * kT, kT);
+  // Offsets of the edges inside one period, from whichever search `next` stands for.
+  auto offsets = [](auto next) {
+    std::vector<double> out;
+    for (double tau = 0.0;;) {
+      const double e = next(tau);
+      if (!(e < kT * (1 - 1e-9))) return out;
+      out.push_back(e);
+      tau = e;
+    }
+  };
   int compared = 0;
   for (long k = 0; k < 12; ++k) {
     const long double origin = static_cast<long double>(k) * kT;
-    std::vector<double> a, b;
-    for (double tau = 0.0;;) {
-      const double e = reused.next_edge_in_period(k, origin, tau, kT);
-      if (!(e < kT * (1 - 1e-9))) break;
-      a.push_back(e);
-      tau = e;
-    }
-    for (double tau = 0.0;;) {
-      const double e = direct.next_edge_after(origin, tau);
-      if (!(e < kT * (1 - 1e-9))) break;
-      b.push_back(e);
-      tau = e;
-    }
+    const auto a = offsets([&](double tau) { return bank.next_edge_in_period(k, origin, tau); });
+    const auto b = offsets([&](double tau) { return bank.next_edge_after(origin, tau); });
     ASSERT_EQ(a.size(), b.size()) << "period " << k;
     for (std::size_t i = 0; i < a.size(); ++i, ++compared)
       EXPECT_NEAR(a[i], b[i], 1e-15 * kT) << "period " << k << ", edge " << i;

@@ -17,8 +17,8 @@ double GateBank::just_after(double t) const {
 }
 
 GateBank::GateBank(const Circuit& circuit, const std::vector<int>& devices,
-                   double time_resolution_s)
-    : resolution_s_(time_resolution_s) {
+                   double time_resolution_s, double run_period_s)
+    : resolution_s_(time_resolution_s), run_period_s_(run_period_s) {
   for (const auto& m : circuit.pwm_modulators())
     gates_.push_back({m.name, Kind::kPwm, 1.0 / m.frequency_hz, m.duty_cycle, m.phase, 0.0,
                       m.soft_start, nullptr});
@@ -40,9 +40,10 @@ GateBank::GateBank(const Circuit& circuit, const std::vector<int>& devices,
   }
   // Edges inside a run period can belong to the gate period before it (phase shifts), so the
   // offsets repeat from one period after the longest duty ramp.
+  if (run_period_s_ > 0) periodic_from_ = 0;
   for (const auto& [bit, gate] : switch_gate_) {
     const Gate& g = gates_[gate];
-    if (g.kind == Kind::kSchedule) {
+    if (g.kind == Kind::kSchedule || g.period_s != run_period_s_) {
       periodic_from_ = -1;
       break;
     }
@@ -50,23 +51,16 @@ GateBank::GateBank(const Circuit& circuit, const std::vector<int>& devices,
   }
 }
 
-double GateBank::next_edge_in_period(long period_index, long double origin, double tau,
-                                     double period_s) const {
+double GateBank::next_edge_in_period(long period_index, long double origin, double tau) const {
   if (periodic_from_ < 0 || period_index < periodic_from_) return next_edge_after(origin, tau);
-  if (offsets_period_s_ != period_s) {
-    for (const auto& [bit, gate] : switch_gate_)
-      if (gates_[gate].period_s != period_s) {
-        periodic_from_ = -1;  // gates of other periods: decided once
-        return next_edge_after(origin, tau);
-      }
-    periodic_offsets_.clear();
+  if (!offsets_found_) {
     for (double x = 0.0;;) {
       const double e = next_edge_after(origin, x);
-      if (!(e < period_s - resolution_s_)) break;
+      if (!(e < run_period_s_ - resolution_s_)) break;
       periodic_offsets_.push_back(e);
       x = e;
     }
-    offsets_period_s_ = period_s;
+    offsets_found_ = true;
   }
   const double slack = std::max<double>(resolution_s_, 8 * std::abs(origin + tau) * 1e-19L);
   for (double e : periodic_offsets_)

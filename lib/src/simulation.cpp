@@ -126,7 +126,6 @@ struct Simulation::Impl {
   const PatternData* current = nullptr;
   detail::TaylorPiece piece;
   Eigen::MatrixXd signal_coefficients, event_coefficients;
-  Eigen::VectorXd scratch;
   CycleAccumulator cycle;
   RunSummary summary;
   double current_scale = 1e-3, voltage_scale = 1.0;
@@ -156,7 +155,8 @@ struct Simulation::Impl {
     if (!(period_s > 0))
       throw InputError(ErrorKind::kInvalidOption, "", "the run has no switching period",
                        "add a modulator or set the switching period of the run");
-    gates = std::make_unique<detail::GateBank>(circuit, model.devices(), 1e-12 * period_s);
+    gates =
+        std::make_unique<detail::GateBank>(circuit, model.devices(), 1e-12 * period_s, period_s);
     model.set_caching(options.cache);
     set_up_layout();
     set_up_recorded();
@@ -208,7 +208,6 @@ struct Simulation::Impl {
     visited.reserve(64);
     diode_current_before.assign(diode_bits.size(), kInf);
     z = Eigen::VectorXd::Zero(n_z);
-    scratch = Eigen::VectorXd::Zero(n_z);
   }
 
   void set_up_recorded() {
@@ -600,20 +599,17 @@ struct Simulation::Impl {
     double a[detail::TaylorPiece::kMaxOrder + 1];
     for (std::size_t j = 0; j < recorded.size(); ++j) {
       const SparseRow& c = current->recorded_sparse[j];
-      const double y0 = dot(c, z0), y1 = dot(c, end_z.data());
-      const double d0 = order >= 1 ? dot(c, z1) : 0.0, d1 = dot(c, end_slope.data());
+      const double y0 = detail::dot(c, z0), y1 = detail::dot(c, end_z.data());
+      const double d0 = order >= 1 ? detail::dot(c, z1) : 0.0,
+                   d1 = detail::dot(c, end_slope.data());
       const bool turns = slope_changes_sign(d0, d1);
       if (!use_gram || turns) piece.project_row(current->recorded.row(j).data(), a);
-      cycle.integral[j] += h * dot(c, mean.data());
-      cycle.square_integral[j] +=
-          h * (use_gram ? detail::bilinear(current->recorded_sparse[j], gram.data(), n_z,
-                                           current->recorded_sparse[j])
-                        : poly::product_integral(a, a, order));
+      cycle.integral[j] += h * detail::dot(c, mean.data());
+      cycle.square_integral[j] += h * (use_gram ? detail::bilinear(c, gram.data(), n_z, c)
+                                                : poly::product_integral(a, a, order));
       double lo = std::min(y0, y1), hi = std::max(y0, y1);
       if (turns) {
-        const double v = poly::eval(a, order,
-                                    poly::stationary_point(a, order, 0.0, 1.0, kExtremumTolerance,
-                                                           poly::secant_point(0, d0, 1, d1)));
+        const double v = poly::interior_extremum(a, order, d0, d1, kExtremumTolerance);
         lo = std::min(lo, v);
         hi = std::max(hi, v);
       }
@@ -630,12 +626,6 @@ struct Simulation::Impl {
                                                              : cycle.dissipated) += e;
       cycle.element_energy[k] += e;
     }
-  }
-
-  static double dot(const SparseRow& row, const double* z) {
-    double v = 0.0;
-    for (std::size_t p = 0; p < row.index.size(); ++p) v += row.value[p] * z[row.index[p]];
-    return v;
   }
 
   // An interior extremum exists (at most one on a piece, see docs/method.md) only where the
@@ -662,9 +652,8 @@ struct Simulation::Impl {
       const double d0 = order >= 1 ? piece.terms()(state, 1) : 0.0, d1 = end_slope[state];
       if (slope_changes_sign(d0, d1)) {
         for (int m = 0; m <= order; ++m) a[m] = piece.terms()(state, m);
-        const double s = poly::stationary_point(a, order, 0.0, 1.0, kExtremumTolerance,
-                                                poly::secant_point(0, d0, 1, d1));
-        peak = std::max(peak, std::abs(poly::eval(a, order, s)));
+        peak =
+            std::max(peak, std::abs(poly::interior_extremum(a, order, d0, d1, kExtremumTolerance)));
       }
       best = std::max(best, peak);
     }
@@ -1218,8 +1207,8 @@ struct Simulation::Impl {
     x_start = z.head(n_x);
     double tau = 0.0;
     while (period_s - tau > options.event_time_tolerance * period_s) {
-      const double tau_next = std::min({gates->next_edge_in_period(k, origin, tau, period_s),
-                                        next_breakpoint(origin, tau), period_s});
+      const double tau_next = std::min(
+          {gates->next_edge_in_period(k, origin, tau), next_breakpoint(origin, tau), period_s});
       if (!advance_until(t + (tau_next - tau), tau_next - tau)) return false;
       tau = tau_next;
       t = static_cast<double>(origin + tau);

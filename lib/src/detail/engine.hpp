@@ -28,6 +28,13 @@ struct SparseRow {
   }
 };
 
+// row . z
+inline double dot(const SparseRow& row, const double* z) {
+  double v = 0.0;
+  for (std::size_t p = 0; p < row.index.size(); ++p) v += row.value[p] * z[row.index[p]];
+  return v;
+}
+
 // a^T G b for the symmetric n x n matrix G (column-major).
 inline double bilinear(const SparseRow& a, const double* g, int n, const SparseRow& b) {
   double sum = 0.0;

@@ -14,7 +14,9 @@ namespace pulsewise::detail {
 class GateBank {
  public:
   // time_resolution_s: edges closer than this to t count as already passed at t.
-  GateBank(const Circuit& circuit, const std::vector<int>& devices, double time_resolution_s);
+  // run_period_s: the period of the cycle loop (next_edge_in_period()); 0 when there is none.
+  GateBank(const Circuit& circuit, const std::vector<int>& devices, double time_resolution_s,
+           double run_period_s = 0.0);
 
   // Bits of the switches that are on just after t (diode bits are zero).
   DevicePattern switch_pattern(double t) const;
@@ -27,8 +29,7 @@ class GateBank {
   // next_edge_after(origin, tau) inside run period `period_index` of length period_s. Once
   // every switch gate repeats with that period and no duty ramps any more, the edge offsets of
   // one period are found once and reused: the same offsets, without the long-double search.
-  double next_edge_in_period(long period_index, long double origin, double tau,
-                             double period_s) const;
+  double next_edge_in_period(long period_index, long double origin, double tau) const;
   // Mask of the switch bits in a DevicePattern.
   DevicePattern switch_mask() const { return switch_mask_; }
 
@@ -51,9 +52,10 @@ class GateBank {
   DevicePattern switch_mask_ = 0;
   double resolution_s_;
   // The reused offsets of next_edge_in_period(): periodic_from_ is the first run period from
-  // which they hold (-1: never, a schedule drives a switch).
-  mutable long periodic_from_ = 0;
-  mutable double offsets_period_s_ = 0.0;
+  // which they hold (-1: never; a schedule drives a switch, or a gate runs at another period).
+  double run_period_s_ = 0.0;
+  long periodic_from_ = -1;
+  mutable bool offsets_found_ = false;
   mutable std::vector<double> periodic_offsets_;
 };
 

@@ -97,6 +97,15 @@ inline double stationary_point(const double* a, int order, double lo, double hi,
                             s_tolerance, start);
 }
 
+// Value of p at its interior extremum on [0, 1], given the slopes d0 = p'(0) and d1 = p'(1) of
+// opposite signs. Only the value is wanted, and it is second order in the location's error, so
+// s_tolerance can be far coarser than for an event time.
+inline double interior_extremum(const double* a, int order, double d0, double d1,
+                                double s_tolerance) {
+  return eval(a, order,
+              stationary_point(a, order, 0.0, 1.0, s_tolerance, secant_point(0.0, d0, 1.0, d1)));
+}
+
 // Earliest s in (0, 1] where p crosses from >= 0 to < -noise. Relies on at most one extremum of
 // p in [0, 1] (guaranteed in practice by the sub-step bound, see docs/method.md): the interval
 // splits at the stationary point into monotone parts, each searched in turn. Returns -1 when p
