@@ -35,6 +35,15 @@ std::size_t element_count(const H5::DataSpace& space) {
   return static_cast<std::size_t>(space.getSimpleExtentNpoints());
 }
 
+// Fixed-width strings as HDF5 stores them: `width` bytes each, padded with NULs.
+void append_fixed_width(const std::vector<char>& buffer, std::size_t width, std::size_t count,
+                        std::vector<std::string>& values) {
+  for (std::size_t k = 0; k < count; ++k) {
+    const char* begin = buffer.data() + k * width;
+    values.emplace_back(begin, std::find(begin, begin + width, '\0'));
+  }
+}
+
 template <class T>
 std::optional<T> read_scalar(const H5::H5Object& object, const std::string& name,
                              const H5::PredType& type) {
@@ -190,10 +199,7 @@ std::optional<std::vector<std::string>> read_string_array_attribute(const H5::H5
     const std::size_t width = file_type.getSize();
     std::vector<char> buffer(width * count);
     attr.read(file_type, buffer.data());
-    for (std::size_t k = 0; k < count; ++k) {
-      const char* begin = buffer.data() + k * width;
-      values.emplace_back(begin, std::find(begin, begin + width, '\0'));
-    }
+    append_fixed_width(buffer, width, count, values);
     return values;
   }
   const H5::StrType type = utf8_string_type();
@@ -235,10 +241,7 @@ std::vector<std::string> read_string_dataset(const H5::DataSet& dataset, std::si
     const std::size_t width = file_type.getSize();
     std::vector<char> buffer(width * count);
     dataset.read(buffer.data(), file_type, memory_space, file_space);
-    for (std::size_t k = 0; k < count; ++k) {
-      const char* begin = buffer.data() + k * width;
-      values.emplace_back(begin, std::find(begin, begin + width, '\0'));
-    }
+    append_fixed_width(buffer, width, count, values);
     return values;
   }
   const H5::StrType type = utf8_string_type();
