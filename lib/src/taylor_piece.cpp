@@ -200,12 +200,26 @@ bool TaylorPiece::expand(const Eigen::MatrixXd& M, const Eigen::VectorXd& z0, do
 
 void TaylorPiece::truncate(double s_end) {
   const int n = static_cast<int>(terms_.rows());
+  double norms[kMaxOrder + 1];
+  double sum_norm = 0.0;
+  for (int i = 0; i < n; ++i) sum_norm = std::max(sum_norm, std::abs(terms_(i, 0)));
+  norms[0] = sum_norm;
   double scale = s_end;
   for (int k = 1; k <= order_; ++k) {
     double* z = terms_.data() + k * n;
-    for (int i = 0; i < dynamic_; ++i) z[i] *= scale;
+    double term = 0.0;
+    for (int i = 0; i < dynamic_; ++i) {
+      z[i] *= scale;
+      term = std::max(term, std::abs(z[i]));
+    }
+    norms[k] = term;
+    sum_norm = std::max(sum_norm, term);
     scale *= s_end;
   }
+  // The scaled terms z_k s^k fall off faster than the series needed for the whole piece: drop
+  // the tail by the stopping test of expand(), from the top down, so that the moments and
+  // projections of the shorter piece do not carry terms below the unit roundoff.
+  while (order_ >= 2 && norms[order_] + norms[order_ - 1] <= kUnitRoundoff * sum_norm) --order_;
   h_ *= s_end;
 }
 

@@ -14,9 +14,42 @@ inline double eval(const double* a, int order, double s) {
   return v;
 }
 
-inline double derivative(const double* a, int order, double s) {
+// p(s) and p'(s) together, by one Horner pass with two chains (Newton needs both at the same s).
+struct ValueSlope {
+  double value, slope;
+};
+inline ValueSlope eval_with_slope(const double* a, int order, double s) {
+  double v = a[order], d = 0.0;
+  for (int k = order - 1; k >= 0; --k) {
+    d = d * s + v;
+    v = v * s + a[k];
+  }
+  return {v, d};
+}
+
+// p'(s) and p''(s) together: the same recursion one order further.
+inline ValueSlope slope_with_curvature(const double* a, int order, double s) {
+  if (order < 1) return {0.0, 0.0};
+  double v = a[order], d = 0.0, c = 0.0;
+  for (int k = order - 1; k >= 1; --k) {
+    c = c * s + d;
+    d = d * s + v;
+    v = v * s + a[k];
+  }
+  // v = p(s) - a0 over s, so far: finish the last step of p' and p'' (c holds p''/2).
+  return {d * s + v, 2.0 * (c * s + d)};
+}
+
+// The values at the ends of [0, 1] need no Horner pass: p(0) = a0, p(1) = sum a_k,
+// p'(0) = a1, p'(1) = sum k a_k.
+inline double value_at_one(const double* a, int order) {
   double v = 0.0;
-  for (int k = order; k >= 1; --k) v = v * s + k * a[k];
+  for (int k = 0; k <= order; ++k) v += a[k];
+  return v;
+}
+inline double slope_at_one(const double* a, int order) {
+  double v = 0.0, weight = 1.0;
+  for (int k = 1; k <= order; ++k, weight += 1.0) v += weight * a[k];
   return v;
 }
 
@@ -45,16 +78,16 @@ inline double product_integral(const double* a, const double* b, int order) {
 
 // Root of f in [lo, hi] where f(lo) and f(hi) have opposite signs (or one is zero), by Newton's
 // method safeguarded with bisection (the bracket always shrinks; a Newton step that leaves it is
-// replaced by bisection). Converges quadratically near a simple root. `Value` gives f, `Slope` f'.
-// `start` is the first iterate (the midpoint when it is not strictly inside the bracket).
-template <class Value, class Slope>
-double safeguarded_newton(Value f, Slope df, double lo, double hi, double s_tolerance,
+// replaced by bisection). Converges quadratically near a simple root. `f(s)` gives f and f' as a
+// ValueSlope; f_lo is f(lo). `start` is the first iterate (the midpoint when it is not strictly
+// inside the bracket).
+template <class F>
+double safeguarded_newton(F f, double lo, double f_lo, double hi, double s_tolerance,
                           double start = -1.0) {
-  double f_lo = f(lo);
   if (f_lo == 0.0) return lo;
   double s = start > lo && start < hi ? start : 0.5 * (lo + hi);
   for (int iter = 0; iter < 100; ++iter) {
-    const double fs = f(s);
+    const auto [fs, slope] = f(s);
     if (fs == 0.0) return s;
     if ((fs < 0) == (f_lo < 0)) {
       lo = s;
@@ -62,7 +95,6 @@ double safeguarded_newton(Value f, Slope df, double lo, double hi, double s_tole
     } else {
       hi = s;
     }
-    const double slope = df(s);
     double next = slope != 0.0 ? s - fs / slope : 0.5 * (lo + hi);
     if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
     if (std::abs(next - s) <= s_tolerance || hi - lo <= s_tolerance) return next;
@@ -77,24 +109,19 @@ inline double secant_point(double lo, double f_lo, double hi, double f_hi) {
   return f_lo != f_hi ? lo + (hi - lo) * f_lo / (f_lo - f_hi) : 0.5 * (lo + hi);
 }
 
-inline double root(const double* a, int order, double lo, double hi, double s_tolerance,
-                   double start = -1.0) {
-  return safeguarded_newton([&](double s) { return eval(a, order, s); },
-                            [&](double s) { return derivative(a, order, s); }, lo, hi, s_tolerance,
-                            start);
+// Root of p in [lo, hi], where p_lo = p(lo); `start` as for safeguarded_newton().
+inline double root(const double* a, int order, double lo, double p_lo, double hi,
+                   double s_tolerance, double start = -1.0) {
+  return safeguarded_newton([&](double s) { return eval_with_slope(a, order, s); }, lo, p_lo, hi,
+                            s_tolerance, start);
 }
 
-// Root of the derivative (an extremum) in [lo, hi], given a sign change of p' there; `start` as
-// for safeguarded_newton().
-inline double stationary_point(const double* a, int order, double lo, double hi, double s_tolerance,
-                               double start = -1.0) {
-  auto second = [&](double s) {
-    double v = 0.0;
-    for (int k = order; k >= 2; --k) v = v * s + k * (k - 1) * a[k];
-    return v;
-  };
-  return safeguarded_newton([&](double s) { return derivative(a, order, s); }, second, lo, hi,
-                            s_tolerance, start);
+// Root of the derivative (an extremum) in [lo, hi], given a sign change of p' there and
+// d_lo = p'(lo); `start` as for safeguarded_newton().
+inline double stationary_point(const double* a, int order, double lo, double d_lo, double hi,
+                               double s_tolerance, double start = -1.0) {
+  return safeguarded_newton([&](double s) { return slope_with_curvature(a, order, s); }, lo, d_lo,
+                            hi, s_tolerance, start);
 }
 
 // Value of p at its interior extremum on [0, 1], given the slopes d0 = p'(0) and d1 = p'(1) of
@@ -102,8 +129,9 @@ inline double stationary_point(const double* a, int order, double lo, double hi,
 // s_tolerance can be far coarser than for an event time.
 inline double interior_extremum(const double* a, int order, double d0, double d1,
                                 double s_tolerance) {
-  return eval(a, order,
-              stationary_point(a, order, 0.0, 1.0, s_tolerance, secant_point(0.0, d0, 1.0, d1)));
+  return eval(
+      a, order,
+      stationary_point(a, order, 0.0, d0, 1.0, s_tolerance, secant_point(0.0, d0, 1.0, d1)));
 }
 
 // Earliest s in (0, 1] where p crosses from >= 0 to < -noise. Relies on at most one extremum of
@@ -111,18 +139,18 @@ inline double interior_extremum(const double* a, int order, double d0, double d1
 // splits at the stationary point into monotone parts, each searched in turn. Returns -1 when p
 // does not go below -noise.
 inline double first_downcrossing(const double* a, int order, double noise, double s_tolerance) {
-  const double p0 = eval(a, order, 0.0), p1 = eval(a, order, 1.0);
-  const double d0 = derivative(a, order, 0.0), d1 = derivative(a, order, 1.0);
+  const double p0 = a[0], p1 = value_at_one(a, order);
+  const double d0 = order >= 1 ? a[1] : 0.0, d1 = slope_at_one(a, order);
   double split = -1.0;
   if ((d0 < 0) != (d1 < 0) && d0 != 0.0 && d1 != 0.0)
-    split = stationary_point(a, order, 0.0, 1.0, s_tolerance, secant_point(0.0, d0, 1.0, d1));
+    split = stationary_point(a, order, 0.0, d0, 1.0, s_tolerance, secant_point(0.0, d0, 1.0, d1));
   double lo = 0.0, p_lo = p0;
   for (double hi : {split, 1.0}) {
     if (hi <= lo) continue;
     const double p_hi = hi == 1.0 ? p1 : eval(a, order, hi);
     if (p_hi < -noise) {
       if (p_lo <= 0.0) return lo;  // already violated at the start of the monotone part
-      return root(a, order, lo, hi, s_tolerance, secant_point(lo, p_lo, hi, p_hi));
+      return root(a, order, lo, p_lo, hi, s_tolerance, secant_point(lo, p_lo, hi, p_hi));
     }
     lo = hi;
     p_lo = p_hi;
