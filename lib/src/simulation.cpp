@@ -39,12 +39,20 @@ using detail::PatternData;
 using detail::SparseRow;
 namespace poly = detail::poly;
 
+namespace {
+// Sets every entry of v to value at size n; after the first period only the fill remains.
+void refill(std::vector<double>& v, std::size_t n, double value) {
+  if (v.size() != n) v.resize(n);
+  std::fill(v.begin(), v.end(), value);
+}
+}  // namespace
+
 void detail::CycleAccumulator::reset(std::size_t signals, std::size_t energy_elements) {
-  element_energy.assign(energy_elements, 0.0);
-  integral.assign(signals, 0.0);
-  square_integral.assign(signals, 0.0);
-  min.assign(signals, std::numeric_limits<double>::infinity());
-  max.assign(signals, -std::numeric_limits<double>::infinity());
+  refill(element_energy, energy_elements, 0.0);
+  refill(integral, signals, 0.0);
+  refill(square_integral, signals, 0.0);
+  refill(min, signals, std::numeric_limits<double>::infinity());
+  refill(max, signals, -std::numeric_limits<double>::infinity());
   intervals.clear();
   energy_in = dissipated = idle_time = 0.0;
   natural_turn_off = false;
@@ -1191,6 +1199,7 @@ struct Simulation::Impl {
     signal_coefficients.resize(recorded.size(), detail::TaylorPiece::kMaxOrder + 1);
     event_coefficients.resize(diode_bits.size(), detail::TaylorPiece::kMaxOrder + 1);
     output_averages.clear();
+    cycle_metrics = CycleMetrics{};
     in_idle = false;
     cycle.reset(recorded.size(), energy_elements.size());
   }
@@ -1224,8 +1233,7 @@ struct Simulation::Impl {
       output_min = k == 0 ? out.min : std::min(output_min, out.min);
     }
     if (observer) observer->on_cycle(m);
-    summary.last_cycle = m;  // copy-assignment reuses the capacity of last_cycle
-    summary.cycles = k + 1;
+    summary.cycles = k + 1;  // m becomes summary.last_cycle when the run ends
     return true;
   }
 
@@ -1263,7 +1271,7 @@ struct Simulation::Impl {
       ok = run_cycle(k);
       if (!ok) break;
       quiet_periods =
-          summary.last_cycle.state_change < options.steady_state_tolerance ? quiet_periods + 1 : 0;
+          cycle_metrics.state_change < options.steady_state_tolerance ? quiet_periods + 1 : 0;
       if (quiet_periods >= options.steady_state_periods && summary.startup.steady_state_cycle < 0)
         summary.startup.steady_state_cycle = k;
       if (options.stop_at_steady_state && summary.startup.steady_state_cycle >= 0) {
@@ -1274,6 +1282,7 @@ struct Simulation::Impl {
     }
     if (ok && summary.end == RunEnd::kCompleted)
       summary.message = "completed " + std::to_string(summary.cycles) + " periods";
+    summary.last_cycle = cycle_metrics;  // the last completed period
     finish_startup();
     summary.end_time_s = t;
     summary.final_state = z.head(n_x);

@@ -15,34 +15,35 @@
 namespace pulsewise::detail {
 
 // The non-zero entries of a row over z. A signal or an element power touches a few entries of z,
-// so its product with the Gram matrix costs a few terms instead of n^2.
+// so its product with the Gram matrix costs a few terms instead of n^2. Index and value sit side
+// by side, one array per row.
 struct SparseRow {
-  std::vector<int> index;
-  std::vector<double> value;
+  struct Entry {
+    int index;
+    double value;
+  };
+  std::vector<Entry> entries;
   explicit SparseRow(const Eigen::Ref<const Eigen::RowVectorXd>& row = Eigen::RowVectorXd()) {
     for (Eigen::Index j = 0; j < row.size(); ++j)
-      if (row[j] != 0.0) {
-        index.push_back(static_cast<int>(j));
-        value.push_back(row[j]);
-      }
+      if (row[j] != 0.0) entries.push_back({static_cast<int>(j), row[j]});
   }
 };
 
 // row . z
 inline double dot(const SparseRow& row, const double* z) {
   double v = 0.0;
-  for (std::size_t p = 0; p < row.index.size(); ++p) v += row.value[p] * z[row.index[p]];
+  for (const SparseRow::Entry& e : row.entries) v += e.value * z[e.index];
   return v;
 }
 
 // a^T G b for the symmetric n x n matrix G (column-major).
 inline double bilinear(const SparseRow& a, const double* g, int n, const SparseRow& b) {
   double sum = 0.0;
-  for (std::size_t q = 0; q < b.index.size(); ++q) {
-    const double* column = g + b.index[q] * n;
+  for (const SparseRow::Entry& q : b.entries) {
+    const double* column = g + q.index * n;
     double inner = 0.0;
-    for (std::size_t p = 0; p < a.index.size(); ++p) inner += a.value[p] * column[a.index[p]];
-    sum += inner * b.value[q];
+    for (const SparseRow::Entry& p : a.entries) inner += p.value * column[p.index];
+    sum += inner * q.value;
   }
   return sum;
 }
