@@ -155,6 +155,8 @@ struct Simulation::Impl {
   std::size_t pattern_hits = 0;              // lookups served by recent_patterns (cache hits too)
   std::vector<double> piece_min, piece_max;  // extremes of each recorded signal on the piece
   std::vector<int> inductor_recorded;        // recorded index of each inductor current, or -1
+  // Every source is constant: z keeps the inputs of the start, and no breakpoint ever comes.
+  bool inputs_constant = false;
 
   Impl(const Circuit& circuit, SimulationOptions opts) : model(circuit), options(std::move(opts)) {
     options.validate();
@@ -201,6 +203,10 @@ struct Simulation::Impl {
       ramp_offset.push_back(w.offset());
     }
     n_r = static_cast<int>(ramp_inputs.size());
+    inputs_constant = true;
+    for (int el : model.input_elements())
+      inputs_constant &=
+          model.circuit().elements()[el].waveform.kind() == Waveform::Kind::kConstant;
     n_z = n_x + n_u + n_r;
     for (std::size_t d = 0; d < model.devices().size(); ++d)
       if (model.circuit().elements()[model.devices()[d]].kind == ElementKind::kDiode)
@@ -334,6 +340,9 @@ struct Simulation::Impl {
       else
         pd.power_forms.push_back({v, i, 1.0});
     }
+    pd.freewheeling.clear();
+    for (const FloatingGroup& group : cfg.floating_groups)
+      pd.freewheeling.push_back({freewheeling_diode(group, 1.0), freewheeling_diode(group, -1.0)});
     pd.recorded_sparse.clear();
     for (Eigen::Index j = 0; j < pd.recorded.rows(); ++j)
       pd.recorded_sparse.emplace_back(pd.recorded.row(j));
@@ -466,11 +475,13 @@ struct Simulation::Impl {
   // Returns 1 when a group needed a device (pattern changed), 0 when all groups are fine,
   // -1 on failure.
   int fix_floating_groups(const PatternData& pd) {
-    for (const FloatingGroup& group : pd.model->floating_groups) {
+    const auto& groups = pd.model->floating_groups;
+    for (std::size_t g = 0; g < groups.size(); ++g) {
+      const FloatingGroup& group = groups[g];
       const double current = row_dot(group.current_row_x.data(), z.data(), n_x) +
                              row_dot(group.current_row_u.data(), z.data() + n_x, n_u);
       if (std::abs(current) <= tolerance_for(SignalQuantity::kCurrent)) continue;
-      const int bit = freewheeling_diode(group, current);
+      const int bit = pd.freewheeling[g][current > 0 ? 0 : 1];
       if (bit < 0) {
         fail(RunEnd::kInterruptedCurrent, interrupted_current_message(group, current));
         return -1;
@@ -576,10 +587,11 @@ struct Simulation::Impl {
       const bool on = (pattern >> diode_bits[d]) & 1u;
       const double noise = tolerance_for(on ? SignalQuantity::kCurrent : SignalQuantity::kVoltage);
       double coeffs[detail::TaylorPiece::kMaxOrder + 1];
+      coeffs[0] = event_coefficients(d, 0);
       double variation = 0.0;  // bounds |g(s) - g(0)| on [0, 1]
-      for (int k = 0; k <= order; ++k) {
+      for (int k = 1; k <= order; ++k) {
         coeffs[k] = event_coefficients(d, k);
-        if (k > 0) variation += std::abs(coeffs[k]);
+        variation += std::abs(coeffs[k]);
       }
       if (coeffs[0] - variation > 0) continue;  // g stays positive: no crossing on the piece
       const double s = poly::first_downcrossing(coeffs, order, noise, s_tolerance);
@@ -1033,17 +1045,7 @@ struct Simulation::Impl {
     const DevicePattern switches = gates->switch_pattern(t);
     Eigen::VectorXd& u = u_new;
     Eigen::VectorXd& du = du_new;
-    model.inputs_at(t, u);
-    model.input_slopes_at(t, du);
-    // Sinusoids evolve inside z exactly; only their breakpoints (a rectified sine's zero
-    // crossings, where the slope flips) reset them. Everything else is reset when it differs.
-    const bool at_breakpoint =
-        std::abs(next_breakpoint(t - 2 * time_slack(t)) - t) <= 2 * time_slack(t);
-    bool inputs_changed = at_breakpoint;
-    for (int k = 0; k < n_u && !inputs_changed; ++k)
-      inputs_changed = !is_oscillator_input(k) && u[k] != z[n_x + k];
-    for (int r = 0; r < n_r && !inputs_changed; ++r)
-      inputs_changed = !ramp_oscillates[r] && du[ramp_inputs[r]] != z[n_x + n_u + r];
+    const bool inputs_changed = !inputs_constant && update_inputs(u, du);
     const DevicePattern changed = (pattern & gates->switch_mask()) ^ switches;
     if (!changed && !inputs_changed) return true;
     if (inputs_changed) load_inputs(u, du);
@@ -1065,6 +1067,20 @@ struct Simulation::Impl {
     const bool ok = make_consistent();
     std::fill(diode_current_before.begin(), diode_current_before.end(), kInf);
     return ok;
+  }
+
+  // Evaluates the inputs and their slopes at t into u and du; true when z must take them.
+  // Sinusoids evolve inside z exactly; only their breakpoints (a rectified sine's zero
+  // crossings, where the slope flips) reset them. Everything else is reset when it differs.
+  bool update_inputs(Eigen::VectorXd& u, Eigen::VectorXd& du) const {
+    model.inputs_at(t, u);
+    model.input_slopes_at(t, du);
+    if (std::abs(next_breakpoint(t - 2 * time_slack(t)) - t) <= 2 * time_slack(t)) return true;
+    for (int k = 0; k < n_u; ++k)
+      if (!is_oscillator_input(k) && u[k] != z[n_x + k]) return true;
+    for (int r = 0; r < n_r; ++r)
+      if (!ramp_oscillates[r] && du[ramp_inputs[r]] != z[n_x + n_u + r]) return true;
+    return false;
   }
 
   bool is_oscillator_input(int k) const {
@@ -1094,6 +1110,7 @@ struct Simulation::Impl {
   }
 
   double next_breakpoint(double after) const {
+    if (inputs_constant) return kInf;
     double best = kInf;
     const double tp = after + time_slack(after);
     for (int el : model.input_elements())

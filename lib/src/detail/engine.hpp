@@ -3,6 +3,7 @@
 #pragma once
 
 #include <Eigen/Dense>
+#include <array>
 #include <chrono>
 #include <map>
 #include <memory>
@@ -68,6 +69,9 @@ struct PatternData {
   std::vector<SparseRow> recorded_sparse;  // the rows of `recorded`
   std::vector<PowerForm> power_forms;      // per energy element
   double max_step_s = 0.0;                 // sub-step bound from ||M||_1
+  // Per floating group of the configuration: the device bit of the diode that a net current into
+  // the group (entry 0) or out of it (entry 1) forward-biases, -1 when there is none.
+  std::vector<std::array<int, 2>> freewheeling;
   // ODE path: the nonlinear currents n enter as dz/dt += E n, y += F n, g += events_n n.
   Eigen::MatrixXd E, recorded_n, events_n, energy_n;
   Eigen::MatrixXd load_voltage_z, load_voltage_n;  // load voltages = Vz z + Vn n
