@@ -21,15 +21,21 @@ namespace poly = pulsewise::detail::poly;
 // p'(s) = 3 s^2 - 5.5 s + 1.625 and p''(s) = 6 s - 5.5 (differentiated by hand).
 constexpr double kCubic[] = {-0.25, 1.625, -2.75, 1.0};
 
-TEST(Polynomial, FusedHornerGivesTheValueSlopeAndCurvatureOfAKnownCubic) {
+TEST(Polynomial, SplitHornerAndDerivativeCoefficientsGiveTheValueSlopeAndCurvatureOfACubic) {
+  double slope[3], curvature[2];
+  poly::derivative_coefficients(kCubic, 3, slope);
+  poly::derivative_coefficients(slope, 2, curvature);
   for (double s : {0.0, 0.1, 0.25, 0.6, 1.0}) {
-    const poly::ValueSlope vs = poly::eval_with_slope(kCubic, 3, s);
-    const poly::ValueSlope sc = poly::slope_with_curvature(kCubic, 3, s);
-    EXPECT_NEAR(vs.value, (s - 0.25) * (s - 0.5) * (s - 2.0), 1e-15) << s;
-    EXPECT_NEAR(vs.slope, 3 * s * s - 5.5 * s + 1.625, 1e-15) << s;
-    EXPECT_NEAR(sc.value, vs.slope, 1e-15) << s;
-    EXPECT_NEAR(sc.slope, 6 * s - 5.5, 1e-15) << s;
+    EXPECT_NEAR(poly::eval(kCubic, 3, s), (s - 0.25) * (s - 0.5) * (s - 2.0), 1e-15) << s;
+    EXPECT_NEAR(poly::eval(slope, 2, s), 3 * s * s - 5.5 * s + 1.625, 1e-15) << s;
+    EXPECT_NEAR(poly::eval(curvature, 1, s), 6 * s - 5.5, 1e-15) << s;
   }
+  // Even and odd orders take different paths through the split; a quartic with known roots.
+  // q(s) = (s - 1/4) p(s) = s^4 - 3 s^3 + 2.3125 s^2 - 0.65625 s + 0.0625.
+  const double quartic[] = {0.0625, -0.65625, 2.3125, -3.0, 1.0};
+  for (double s : {0.0, 0.3, 0.7, 1.0})
+    EXPECT_NEAR(poly::eval(quartic, 4, s), (s - 0.25) * (s - 0.25) * (s - 0.5) * (s - 2.0), 1e-15)
+        << s;
   EXPECT_NEAR(poly::value_at_one(kCubic, 3), (0.75) * (0.5) * (-1.0), 1e-15);
   EXPECT_NEAR(poly::slope_at_one(kCubic, 3), 3 - 5.5 + 1.625, 1e-15);
 }
