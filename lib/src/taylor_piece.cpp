@@ -65,17 +65,19 @@ int expand_terms(const double* m, int n, int d_runtime, double* terms, double h,
     const double* prev = terms + (k - 1) * n;
     double* next = terms + k * n;
     const double scale = h / k;
-    for (int i = 0; i < d; ++i) out[i] = 0.0;
+    // (M z_{k-1}) first, scaled once at the end: each term waits on the one before it, so the
+    // chain of dependent operations, not their number, sets the cost.
+    for (int i = 0; i < d; ++i) out[i] = m[i] * prev[0];
     const int columns = k == 1 ? n : d;
-    for (int j = 0; j < columns; ++j) {
-      const double pj = scale * prev[j];
+    for (int j = 1; j < columns; ++j) {
+      const double pj = prev[j];
       const double* column = m + j * n;
       for (int i = 0; i < d; ++i) out[i] += column[i] * pj;
     }
     double term = 0.0;
     for (int i = 0; i < d; ++i) {
-      next[i] = out[i];
-      term = std::max(term, std::abs(out[i]));
+      next[i] = scale * out[i];
+      term = std::max(term, std::abs(next[i]));
     }
     sum_norm = std::max(sum_norm, term);
     if (term + previous <= kUnitRoundoff * sum_norm) return k;
