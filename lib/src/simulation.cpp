@@ -147,6 +147,7 @@ struct Simulation::Impl {
   double output_max = 0.0, output_min = 0.0;  // extremes of the output signal over the run
   Eigen::VectorXd u_new, du_new;              // apply_schedule scratch
   Eigen::VectorXd mean, end_z, end_slope;     // moments of the current piece
+  Eigen::VectorXd zero_slope;                 // the slope at s = 0 of a constant piece
   Eigen::MatrixXd gram;
   CycleMetrics cycle_metrics;         // filled by finish_cycle(), reused every period
   Eigen::VectorXd cycle_start_state;  // x at the start of the period
@@ -216,7 +217,7 @@ struct Simulation::Impl {
         inductor_states.push_back(s);
     piece.resize(n_z);
     u_new = Eigen::VectorXd::Zero(n_u);
-    mean = end_z = end_slope = Eigen::VectorXd::Zero(n_z);
+    mean = end_z = end_slope = zero_slope = Eigen::VectorXd::Zero(n_z);
     gram = Eigen::MatrixXd::Zero(n_z, n_z);
     du_new = Eigen::VectorXd::Zero(n_u);
     visited.reserve(64);
@@ -615,16 +616,16 @@ struct Simulation::Impl {
         options.energy_accounting || recorded.size() > static_cast<std::size_t>(n_z);
     piece.moments(mean.data(), end_z.data(), end_slope.data(), use_gram ? gram.data() : nullptr);
     const double* z0 = piece.terms().data();
-    const double* z1 = z0 + n_z;
+    // z_1 is the slope at s = 0; a constant piece (order 0) has none.
+    const double* z1 = order >= 1 ? z0 + n_z : zero_slope.data();
     double a[detail::TaylorPiece::kMaxOrder + 1];
     for (std::size_t j = 0; j < recorded.size(); ++j) {
       const SparseRow& c = current->recorded_sparse[j];
-      const double y0 = detail::dot(c, z0), y1 = detail::dot(c, end_z.data());
-      const double d0 = order >= 1 ? detail::dot(c, z1) : 0.0,
-                   d1 = detail::dot(c, end_slope.data());
+      const auto [y0, y1, d0, d1, average] =
+          detail::dots<5>(c, {z0, end_z.data(), z1, end_slope.data(), mean.data()});
       const bool turns = slope_changes_sign(d0, d1);
       if (!use_gram || turns) piece.project_row(current->recorded.row(j).data(), a);
-      cycle.integral[j] += h * detail::dot(c, mean.data());
+      cycle.integral[j] += h * average;
       cycle.square_integral[j] += h * (use_gram ? detail::bilinear(c, gram.data(), n_z, c)
                                                 : poly::product_integral(a, a, order));
       double lo = std::min(y0, y1), hi = std::max(y0, y1);

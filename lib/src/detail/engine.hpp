@@ -30,11 +30,14 @@ struct SparseRow {
   }
 };
 
-// row . z
-inline double dot(const SparseRow& row, const double* z) {
-  double v = 0.0;
-  for (const SparseRow::Entry& e : row.entries) v += e.value * z[e.index];
-  return v;
+// row . v for several vectors v in one pass over the row (a signal's value and slope at both ends
+// and its mean on a piece).
+template <std::size_t N>
+std::array<double, N> dots(const SparseRow& row, const std::array<const double*, N>& vectors) {
+  std::array<double, N> out{};
+  for (const SparseRow::Entry& e : row.entries)
+    for (std::size_t m = 0; m < N; ++m) out[m] += e.value * vectors[m][e.index];
+  return out;
 }
 
 // a^T G b for the symmetric n x n matrix G (column-major).
