@@ -118,12 +118,12 @@ void piece_moments(const double* __restrict terms, int n, int d_runtime, int ord
   const int d = D > 0 ? D : d_runtime;
   const double* reciprocal = poly::kReciprocal.value;
   for (int i = 0; i < d; ++i) {
-    double m = 0.0, e = 0.0, s = 0.0;
-    for (int k = 0; k <= order; ++k) {
+    double m = 0.0, e = 0.0, s = 0.0, weight = 0.0;
+    for (int k = 0; k <= order; ++k, weight += 1.0) {
       const double z = terms[i + k * n];
       m += reciprocal[k] * z;
       e += z;
-      s += k * z;
+      s += weight * z;
     }
     mean[i] = m;
     end[i] = e;
