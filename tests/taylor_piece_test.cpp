@@ -118,4 +118,30 @@ TEST(TaylorPiece, TruncatedPieceMatchesTheMatrixExponentialOfTheShorterStepWithF
   }
 }
 
+TEST(TaylorPiece, GramEntriesFromAPairListEqualThoseOfTheFullSum) {
+  // Four states, one input: a listed subset of the moving block must come out as the full sum
+  // gives it (the same products, summed in another order), and the static entries as always.
+  Eigen::MatrixXd m = Eigen::MatrixXd::Zero(5, 5);
+  m << -2e3, -1e5, 0.0, 0.0, 1e5,   //
+      2e4, -3.5e2, -2e4, 0.0, 0.0,  //
+      0.0, 5e4, -1e3, -5e4, 0.0,    //
+      0.0, 0.0, 1e4, -2e2, 0.0,     //
+      0.0, 0.0, 0.0, 0.0, 0.0;
+  Eigen::VectorXd z0(5);
+  z0 << 0.4, 11.0, -0.2, 10.5, 12.0;
+  TaylorPiece piece(5);
+  ASSERT_TRUE(piece.expand(m, z0, 2e-6, 4));
+  Eigen::VectorXd mean(5), end(5), slope(5);
+  Eigen::MatrixXd full(5, 5), listed = Eigen::MatrixXd::Constant(5, 5, -7.0);
+  piece.moments(mean.data(), end.data(), slope.data(), full.data());
+  const pulsewise::detail::GramPairs pairs = {{0, 0}, {1, 3}, {2, 2}, {0, 3}};
+  piece.moments(mean.data(), end.data(), slope.data(), listed.data(), pairs);
+  for (const auto& [i, j] : pairs) {
+    EXPECT_NEAR(listed(i, j), full(i, j), 1e-15 * full.cwiseAbs().maxCoeff()) << i << "," << j;
+    EXPECT_EQ(listed(j, i), listed(i, j));
+  }
+  EXPECT_EQ(listed(1, 1), -7.0);  // not listed: left as it was
+  for (int i = 0; i < 5; ++i) EXPECT_EQ(listed(i, 4), full(i, 4)) << i;
+}
+
 }  // namespace

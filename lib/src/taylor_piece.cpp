@@ -109,6 +109,23 @@ void project_terms(const double* rows, int r_count, const double* terms, int n, 
   }
 }
 
+// y_k = z_k / (2 (2k + 1)) + sum_{l > k} z_l / (k + l + 1) over the dynamic block: the weights
+// of H = sum_k z_k y_k^T (see piece_moments).
+template <int D>
+inline void gram_weights(const double* __restrict terms, int n, int d_runtime, int order, int k,
+                         double* __restrict y) {
+  const int d = D > 0 ? D : d_runtime;
+  const double* reciprocal = poly::kReciprocal.value;
+  const double* __restrict zk = terms + k * n;
+  const double diagonal = 0.5 * reciprocal[2 * k];
+  for (int i = 0; i < d; ++i) y[i] = diagonal * zk[i];
+  for (int l = k + 1; l <= order; ++l) {
+    const double w = reciprocal[k + l];
+    const double* __restrict z = terms + l * n;
+    for (int i = 0; i < d; ++i) y[i] += w * z[i];
+  }
+}
+
 // Moments over the dynamic block; past it z is the constant z_0, so the mean and the end value
 // are z_0, the slope is zero, and the Gram blocks are mean z_0^T (mixed) and z_0 z_0^T.
 template <int D>
@@ -146,13 +163,7 @@ void piece_moments(const double* __restrict terms, int n, int d_runtime, int ord
   const int g_stride = D > 0 ? d : n;
   for (int k = 0; k <= order; ++k) {
     const double* __restrict zk = terms + k * n;
-    const double diagonal = 0.5 * reciprocal[2 * k];
-    for (int i = 0; i < d; ++i) y[i] = diagonal * zk[i];
-    for (int l = k + 1; l <= order; ++l) {
-      const double w = reciprocal[k + l];
-      const double* __restrict z = terms + l * n;
-      for (int i = 0; i < d; ++i) y[i] += w * z[i];
-    }
+    gram_weights<D>(terms, n, d, order, k, y);
     for (int j = 0; j < d; ++j) {
       const double yj = y[j];
       for (int i = 0; i < d; ++i) g[i + j * g_stride] += zk[i] * yj;
@@ -167,13 +178,53 @@ void piece_moments(const double* __restrict terms, int n, int d_runtime, int ord
   }
 }
 
+// Past the dynamic block z is the constant z_0: the Gram blocks there are mean z_0^T (mixed) and
+// z_0 z_0^T.
+template <int D>
+void static_gram_blocks(const double* terms, int n, int d_runtime, const double* mean,
+                        double* gram) {
+  const int d = D > 0 ? D : d_runtime;
+  for (int j = d; j < n; ++j) {
+    for (int i = 0; i < d; ++i) gram[i + j * n] = gram[j + i * n] = mean[i] * terms[j];
+    for (int i = d; i < n; ++i) gram[i + j * n] = terms[i] * terms[j];
+  }
+}
+
+// The listed entries (i, j) of the dynamic block of the Gram matrix only, G_ij = H_ij + H_ji with
+// H and y_k as in piece_moments: two products per pair and term instead of d^2 per term. The
+// other entries of the block are not written.
+template <int D>
+void gram_pairs(const double* __restrict terms, int n, int d_runtime, int order,
+                const GramPairs& pairs, double* __restrict gram, double* __restrict scratch) {
+  const int d = D > 0 ? D : d_runtime;
+  constexpr int kFixed = D > 0 ? D : 1;
+  double local_y[kFixed], local_h[kFixed * (kFixed + 1)];
+  double* __restrict y = D > 0 ? local_y : scratch;
+  double* __restrict h = D > 0 ? local_h : scratch + n;
+  const int pair_count = static_cast<int>(pairs.size());
+  for (int p = 0; p < 2 * pair_count; ++p) h[p] = 0.0;
+  for (int k = 0; k <= order; ++k) {
+    const double* __restrict zk = terms + k * n;
+    gram_weights<D>(terms, n, d, order, k, y);
+    for (int p = 0; p < pair_count; ++p) {
+      const auto [i, j] = pairs[p];
+      h[2 * p] += zk[i] * y[j];
+      h[2 * p + 1] += zk[j] * y[i];
+    }
+  }
+  for (int p = 0; p < pair_count; ++p) {
+    const auto [i, j] = pairs[p];
+    gram[i + j * n] = gram[j + i * n] = h[2 * p] + h[2 * p + 1];
+  }
+}
+
 }  // namespace
 
 void TaylorPiece::resize(int dimension) {
   terms_.setZero(dimension, kMaxOrder + 1);
   zero_from_ = 0;
   written_order_ = 0;
-  scratch_.setZero(dimension * (dimension + 1));
+  scratch_.setZero(dimension * (dimension + 2));
 }
 
 bool TaylorPiece::expand(const Eigen::MatrixXd& M, const Eigen::VectorXd& z0, double h,
@@ -247,6 +298,18 @@ void TaylorPiece::moments(double* mean, double* end, double* end_slope, double* 
   dispatch(dynamic_, [&](auto size) {
     piece_moments<decltype(size)::value>(terms_.data(), n, dynamic_, order_, mean, end, end_slope,
                                          gram, scratch_.data());
+  });
+}
+
+void TaylorPiece::moments(double* mean, double* end, double* end_slope, double* gram,
+                          const GramPairs& pairs) const {
+  const int n = static_cast<int>(terms_.rows());
+  dispatch(dynamic_, [&](auto size) {
+    constexpr int D = decltype(size)::value;
+    piece_moments<D>(terms_.data(), n, dynamic_, order_, mean, end, end_slope, nullptr,
+                     scratch_.data());
+    gram_pairs<D>(terms_.data(), n, dynamic_, order_, pairs, gram, scratch_.data());
+    static_gram_blocks<D>(terms_.data(), n, dynamic_, mean, gram);
   });
 }
 

@@ -63,15 +63,19 @@ struct PowerForm {
 // z = [x; u; du/dt of the ramping inputs].
 struct PatternData {
   const ConfigurationModel* model = nullptr;
-  Eigen::MatrixXd M;      // dz/dt = M z
-  int dynamic_rows = 0;   // rows of z that move: M is zero below them (see TaylorPiece)
-  RowMatrix recorded;     // rows: recorded signals
-  RowMatrix events;       // rows: device conditions g >= 0 (one per diode)
-  RowMatrix event_rates;  // rows: their time derivatives dg/dt = (events M) z
-  RowMatrix energy;       // rows: (v, i) of each element taking part in the energy balance
+  Eigen::MatrixXd M;         // dz/dt = M z
+  int dynamic_rows = 0;      // rows of z that move: M is zero below them (see TaylorPiece)
+  bool listed_gram = false;  // the Gram block is summed over gram_pairs only
+  RowMatrix recorded;        // rows: recorded signals
+  RowMatrix events;          // rows: device conditions g >= 0 (one per diode)
+  RowMatrix event_rates;     // rows: their time derivatives dg/dt = (events M) z
+  RowMatrix energy;          // rows: (v, i) of each element taking part in the energy balance
   std::vector<SparseRow> recorded_sparse;  // the rows of `recorded`
   std::vector<PowerForm> power_forms;      // per energy element
-  double max_step_s = 0.0;                 // sub-step bound from ||M||_1
+  // Entries of the moving block of the Gram matrix that recorded and power_forms read; used
+  // (listed_gram) where summing them alone is cheaper than the whole block.
+  GramPairs gram_pairs;
+  double max_step_s = 0.0;  // sub-step bound from ||M||_1
   // Per floating group of the configuration: the device bit of the diode that a net current into
   // the group (entry 0) or out of it (entry 1) forward-biases, -1 when there is none.
   std::vector<std::array<int, 2>> freewheeling;

@@ -17,12 +17,17 @@
 #pragma once
 
 #include <Eigen/Dense>
+#include <array>
+#include <vector>
 
 namespace pulsewise::detail {
 
 // Rows of linear functionals of z (signals, device conditions), stored row by row so that each
 // row is contiguous.
 using RowMatrix = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
+
+// Entries (i, j), i <= j, of the moving block of a Gram matrix that a caller reads.
+using GramPairs = std::vector<std::array<int, 2>>;
 
 class TaylorPiece {
  public:
@@ -54,7 +59,12 @@ class TaylorPiece {
   // end = z(1), end_slope = dz/ds at s = 1 = sum k z_k, and when gram is non-null the Gram
   // matrix G = integral of z z^T = sum_{k,l} z_k z_l^T / (k+l+1) (n x n, column-major), from
   // which the integral of any product of two linear functionals a.z and b.z is a^T G b.
+  // The second form computes only the listed entries of the moving block (rows and columns below
+  // dynamic_rows()) are computed and the rest of that block is left as it was; the entries with
+  // a static row or column are always written.
   void moments(double* mean, double* end, double* end_slope, double* gram) const;
+  void moments(double* mean, double* end, double* end_slope, double* gram,
+               const GramPairs& pairs) const;
 
  private:
   Eigen::MatrixXd terms_;
