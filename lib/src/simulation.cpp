@@ -133,7 +133,7 @@ struct Simulation::Impl {
   DevicePattern pattern = 0;
   const PatternData* current = nullptr;
   detail::TaylorPiece piece;
-  Eigen::MatrixXd signal_coefficients, event_coefficients;
+  Eigen::MatrixXd signal_coefficients;
   CycleAccumulator cycle;
   RunSummary summary;
   double current_scale = 1e-3, voltage_scale = 1.0;
@@ -350,6 +350,9 @@ struct Simulation::Impl {
     pd.dynamic_rows = 0;
     for (int row = 0; row < n_z; ++row)
       if (pd.M.row(row).any()) pd.dynamic_rows = row + 1;
+    pd.event_dynamic_l1.clear();
+    for (Eigen::Index d = 0; d < pd.events.rows(); ++d)
+      pd.event_dynamic_l1.push_back(pd.events.row(d).head(pd.dynamic_rows).cwiseAbs().sum());
     set_gram_pairs(pd);
     const double norm = pd.M.cwiseAbs().colwise().sum().maxCoeff();
     pd.max_step_s = norm > 0 ? options.max_step_norm / norm : kInf;
@@ -603,20 +606,21 @@ struct Simulation::Impl {
   // Earliest device event inside the current piece: (s, diode index) or (-1, -1).
   std::pair<double, int> find_event(double s_tolerance) {
     const int order = piece.order();
-    piece.project(current->events, event_coefficients);
+    const double* z0 = piece.terms().data();
     double best = kInf;
     int which = -1;
     for (std::size_t d = 0; d < diode_bits.size(); ++d) {
+      // g stays positive over the piece when g(0) exceeds a bound on its variation: first the
+      // norm bound of the series (no polynomial needed), then the sum of its coefficients.
+      const double* row = current->events.row(d).data();
+      if (row_dot(row, z0, n_z) > current->event_dynamic_l1[d] * piece.variation_bound()) continue;
       const bool on = (pattern >> diode_bits[d]) & 1u;
       const double noise = tolerance_for(on ? SignalQuantity::kCurrent : SignalQuantity::kVoltage);
       double coeffs[detail::TaylorPiece::kMaxOrder + 1];
-      coeffs[0] = event_coefficients(d, 0);
+      piece.project_row(row, coeffs);
       double variation = 0.0;  // bounds |g(s) - g(0)| on [0, 1]
-      for (int k = 1; k <= order; ++k) {
-        coeffs[k] = event_coefficients(d, k);
-        variation += std::abs(coeffs[k]);
-      }
-      if (coeffs[0] - variation > 0) continue;  // g stays positive: no crossing on the piece
+      for (int k = 1; k <= order; ++k) variation += std::abs(coeffs[k]);
+      if (coeffs[0] - variation > 0) continue;
       const double s = poly::first_downcrossing(coeffs, order, noise, s_tolerance);
       if (s >= 0 && s < best) {
         best = s;
@@ -1240,7 +1244,6 @@ struct Simulation::Impl {
     current_scale = std::max(current_scale, 1e-3 * voltage_scale);
     pattern = gates->switch_pattern(0.0);
     signal_coefficients.resize(recorded.size(), detail::TaylorPiece::kMaxOrder + 1);
-    event_coefficients.resize(diode_bits.size(), detail::TaylorPiece::kMaxOrder + 1);
     output_averages.clear();
     cycle_metrics = CycleMetrics{};
     in_idle = false;

@@ -54,11 +54,12 @@ struct Accumulator {
 // alone: TaylorPiece keeps them zero.
 template <int D>
 int expand_terms(const double* m, int n, int d_runtime, double* terms, double h, int max_order,
-                 double* scratch) {
+                 double* scratch, double& variation) {
   const int d = D > 0 ? D : d_runtime;
   double sum_norm = 0.0;
   for (int i = 0; i < n; ++i) sum_norm = std::max(sum_norm, std::abs(terms[i]));
   double previous = sum_norm;
+  variation = 0.0;
   Accumulator<D> acc(scratch);
   double* out = acc.data;
   for (int k = 1; k <= max_order; ++k) {
@@ -80,6 +81,7 @@ int expand_terms(const double* m, int n, int d_runtime, double* terms, double h,
       term = std::max(term, std::abs(next[i]));
     }
     sum_norm = std::max(sum_norm, term);
+    variation += term;
     if (term + previous <= kUnitRoundoff * sum_norm) return k;
     previous = term;
   }
@@ -239,12 +241,13 @@ bool TaylorPiece::expand(const Eigen::MatrixXd& M, const Eigen::VectorXd& z0, do
   zero_from_ = dynamic_;
   if (dynamic_ == 0) {  // nothing moves: the piece is the constant z0
     order_ = 0;
+    variation_bound_ = 0.0;
     return true;
   }
   const int n = static_cast<int>(M.rows());
   const int order = dispatch(dynamic_, [&](auto size) {
     return expand_terms<decltype(size)::value>(M.data(), n, dynamic_, terms_.data(), h, kMaxOrder,
-                                               scratch_.data());
+                                               scratch_.data(), variation_bound_);
   });
   order_ = order < 0 ? kMaxOrder : order;
   written_order_ = std::max(written_order_, order_);
@@ -273,6 +276,8 @@ void TaylorPiece::truncate(double s_end) {
   // the tail by the stopping test of expand(), from the top down, so that the moments and
   // projections of the shorter piece do not carry terms below the unit roundoff.
   while (order_ >= 2 && norms[order_] + norms[order_ - 1] <= kUnitRoundoff * sum_norm) --order_;
+  variation_bound_ = 0.0;
+  for (int k = 1; k <= order_; ++k) variation_bound_ += norms[k];
   h_ *= s_end;
 }
 

@@ -69,7 +69,8 @@ struct PatternData {
   RowMatrix recorded;        // rows: recorded signals
   RowMatrix events;          // rows: device conditions g >= 0 (one per diode)
   RowMatrix event_rates;     // rows: their time derivatives dg/dt = (events M) z
-  RowMatrix energy;          // rows: (v, i) of each element taking part in the energy balance
+  std::vector<double> event_dynamic_l1;  // per event row: sum of |entries| over the moving block
+  RowMatrix energy;  // rows: (v, i) of each element taking part in the energy balance
   std::vector<SparseRow> recorded_sparse;  // the rows of `recorded`
   std::vector<PowerForm> power_forms;      // per energy element
   // Entries of the moving block of the Gram matrix that recorded and power_forms read; used

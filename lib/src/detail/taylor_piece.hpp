@@ -44,6 +44,10 @@ class TaylorPiece {
   void truncate(double s_end);
 
   int order() const { return order_; }
+  // sum over k >= 1 of max_i |z_k[i]|: for any row r over z, |r . (z(s) - z_0)| on [0, 1] is at
+  // most (sum over the dynamic block of |r_i|) times this, which proves a device condition
+  // far from zero keeps its sign over the piece without its polynomial.
+  double variation_bound() const { return variation_bound_; }
   int dynamic_rows() const { return dynamic_; }
   double duration_s() const { return h_; }
   // Column k holds z_k; the state at s is sum_k z_k s^k. Entries past dynamic_rows() are zero
@@ -76,6 +80,7 @@ class TaylorPiece {
   // written_order_ (so a smaller block only clears that much).
   int zero_from_ = 0, written_order_ = 0;
   double h_ = 0.0;
+  double variation_bound_ = 0.0;
 };
 
 }  // namespace pulsewise::detail
