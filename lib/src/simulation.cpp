@@ -147,7 +147,6 @@ struct Simulation::Impl {
   double output_max = 0.0, output_min = 0.0;  // extremes of the output signal over the run
   Eigen::VectorXd u_new, du_new;              // apply_schedule scratch
   Eigen::VectorXd mean, end_z, end_slope;     // moments of the current piece
-  Eigen::VectorXd zero_slope;                 // the slope at s = 0 of a constant piece
   Eigen::MatrixXd gram;
   CycleMetrics cycle_metrics;         // filled by finish_cycle(), reused every period
   Eigen::VectorXd cycle_start_state;  // x at the start of the period
@@ -217,7 +216,7 @@ struct Simulation::Impl {
         inductor_states.push_back(s);
     piece.resize(n_z);
     u_new = Eigen::VectorXd::Zero(n_u);
-    mean = end_z = end_slope = zero_slope = Eigen::VectorXd::Zero(n_z);
+    mean = end_z = end_slope = Eigen::VectorXd::Zero(n_z);
     gram = Eigen::MatrixXd::Zero(n_z, n_z);
     du_new = Eigen::VectorXd::Zero(n_u);
     visited.reserve(64);
@@ -645,8 +644,8 @@ struct Simulation::Impl {
     else
       piece.moments(mean.data(), end_z.data(), end_slope.data(), use_gram ? gram.data() : nullptr);
     const double* z0 = piece.terms().data();
-    // z_1 is the slope at s = 0; a constant piece (order 0) has none.
-    const double* z1 = order >= 1 ? z0 + n_z : zero_slope.data();
+    // z_1, the slope at s = 0: zero for a constant piece (see TaylorPiece::terms()).
+    const double* z1 = z0 + n_z;
     double a[detail::TaylorPiece::kMaxOrder + 1];
     for (std::size_t j = 0; j < recorded.size(); ++j) {
       const SparseRow& c = current->recorded_sparse[j];
@@ -699,7 +698,8 @@ struct Simulation::Impl {
       }
       const int state = inductor_states[k];
       double peak = std::max(std::abs(piece.terms()(state, 0)), std::abs(end_z[state]));
-      const double d0 = order >= 1 ? piece.terms()(state, 1) : 0.0, d1 = end_slope[state];
+      const double d0 = piece.terms()(state, 1),
+                   d1 = end_slope[state];  // z_1: see accumulate_piece
       if (slope_changes_sign(d0, d1)) {
         for (int m = 0; m <= order; ++m) a[m] = piece.terms()(state, m);
         peak =
@@ -1075,7 +1075,7 @@ struct Simulation::Impl {
     const DevicePattern switches = gates->switch_pattern(t);
     Eigen::VectorXd& u = u_new;
     Eigen::VectorXd& du = du_new;
-    const bool inputs_changed = !inputs_constant && update_inputs(u, du);
+    const bool inputs_changed = update_inputs(u, du);
     const DevicePattern changed = (pattern & gates->switch_mask()) ^ switches;
     if (!changed && !inputs_changed) return true;
     if (inputs_changed) load_inputs(u, du);
@@ -1103,6 +1103,7 @@ struct Simulation::Impl {
   // Sinusoids evolve inside z exactly; only their breakpoints (a rectified sine's zero
   // crossings, where the slope flips) reset them. Everything else is reset when it differs.
   bool update_inputs(Eigen::VectorXd& u, Eigen::VectorXd& du) const {
+    if (inputs_constant) return false;
     model.inputs_at(t, u);
     model.input_slopes_at(t, du);
     if (std::abs(next_breakpoint(t - 2 * time_slack(t)) - t) <= 2 * time_slack(t)) return true;

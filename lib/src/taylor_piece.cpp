@@ -128,6 +128,18 @@ inline void gram_weights(const double* __restrict terms, int n, int d_runtime, i
   }
 }
 
+// Past the dynamic block z is the constant z_0: the Gram blocks there are mean z_0^T (mixed) and
+// z_0 z_0^T.
+template <int D>
+void static_gram_blocks(const double* terms, int n, int d_runtime, const double* mean,
+                        double* gram) {
+  const int d = D > 0 ? D : d_runtime;
+  for (int j = d; j < n; ++j) {
+    for (int i = 0; i < d; ++i) gram[i + j * n] = gram[j + i * n] = mean[i] * terms[j];
+    for (int i = d; i < n; ++i) gram[i + j * n] = terms[i] * terms[j];
+  }
+}
+
 // Moments over the dynamic block; past it z is the constant z_0, so the mean and the end value
 // are z_0, the slope is zero, and the Gram blocks are mean z_0^T (mixed) and z_0 z_0^T.
 template <int D>
@@ -174,22 +186,7 @@ void piece_moments(const double* __restrict terms, int n, int d_runtime, int ord
   for (int j = 0; j < d; ++j)
     for (int i = 0; i <= j; ++i)
       gram[i + j * n] = gram[j + i * n] = g[i + j * g_stride] + g[j + i * g_stride];
-  for (int j = d; j < n; ++j) {
-    for (int i = 0; i < d; ++i) gram[i + j * n] = gram[j + i * n] = mean[i] * terms[j];
-    for (int i = d; i < n; ++i) gram[i + j * n] = terms[i] * terms[j];
-  }
-}
-
-// Past the dynamic block z is the constant z_0: the Gram blocks there are mean z_0^T (mixed) and
-// z_0 z_0^T.
-template <int D>
-void static_gram_blocks(const double* terms, int n, int d_runtime, const double* mean,
-                        double* gram) {
-  const int d = D > 0 ? D : d_runtime;
-  for (int j = d; j < n; ++j) {
-    for (int i = 0; i < d; ++i) gram[i + j * n] = gram[j + i * n] = mean[i] * terms[j];
-    for (int i = d; i < n; ++i) gram[i + j * n] = terms[i] * terms[j];
-  }
+  static_gram_blocks<D>(terms, n, d, mean, gram);
 }
 
 // The listed entries (i, j) of the dynamic block of the Gram matrix only, G_ij = H_ij + H_ji with
