@@ -54,6 +54,8 @@ void read_run_steady_state(const TableReader& run, const Circuit& circuit, Simul
   o.settling_band =
       run.value_or("settling_band", Unit::kNone, Range::open_fraction(), "0.02", o.settling_band);
   o.cache = run.boolean_or("cache", o.cache);
+  o.replay_repeating_periods =
+      run.boolean_or("replay_repeating_periods", o.replay_repeating_periods);
   o.energy_accounting = run.boolean_or("energy_accounting", o.energy_accounting);
 }
 
@@ -215,13 +217,27 @@ void check_signal(const Circuit& circuit, const std::string& signal, const Table
 SimulationOptions read_run(const toml::table* table, const std::string& file,
                            const Circuit& circuit) {
   SimulationOptions o;
-  TableReader run(
-      table ? *table : kEmptyTable, file, "[run]",
-      {"periods", "switching_period", "substeps_per_period", "max_step_norm",
-       "event_time_tolerance", "device_condition_tolerance", "max_events_per_period",
-       "max_consistency_iterations", "boundary_tolerance", "stop_at_steady_state",
-       "steady_state_tolerance", "steady_state_periods", "output_signal", "settling_band", "cache",
-       "energy_accounting", "ode_stepper", "ode_relative_tolerance", "ode_absolute_tolerance"});
+  TableReader run(table ? *table : kEmptyTable, file, "[run]",
+                  {"periods",
+                   "switching_period",
+                   "substeps_per_period",
+                   "max_step_norm",
+                   "event_time_tolerance",
+                   "device_condition_tolerance",
+                   "max_events_per_period",
+                   "max_consistency_iterations",
+                   "boundary_tolerance",
+                   "stop_at_steady_state",
+                   "steady_state_tolerance",
+                   "steady_state_periods",
+                   "output_signal",
+                   "settling_band",
+                   "cache",
+                   "replay_repeating_periods",
+                   "energy_accounting",
+                   "ode_stepper",
+                   "ode_relative_tolerance",
+                   "ode_absolute_tolerance"});
   run.set_value_error_kind(ErrorKind::kInvalidOption);
   read_run_lengths(run, o);
   read_run_tolerances(run, o);

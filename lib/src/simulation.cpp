@@ -27,6 +27,7 @@
 
 #include "detail/engine.hpp"
 #include "detail/nonlinear.hpp"
+#include "detail/period_replay.hpp"
 #include "detail/polynomial.hpp"
 #include "detail/stiff_integrator.hpp"
 
@@ -157,6 +158,15 @@ struct Simulation::Impl {
   std::vector<int> inductor_recorded;        // recorded index of each inductor current, or -1
   // Every source is constant: z keeps the inputs of the start, and no breakpoint ever comes.
   bool inputs_constant = false;
+  // Replay of a repeating period (detail/period_replay.hpp): the steps of this period and of
+  // the one before, whether this period can be one (no state event so far), and whether the
+  // next period is replayed.
+  detail::PeriodReplay replay;
+  std::vector<detail::PeriodStep> steps_now, steps_before;
+  bool steps_valid = false, replay_next = false;
+  std::vector<int> replay_extra_inductors;  // inductor index of each extra replay state
+  Eigen::VectorXd replay_start, replay_values, replay_abs, replay_bound;
+  std::vector<int> replay_signal_inductor;  // per recorded signal: its inductor index, or -1
 
   Impl(const Circuit& circuit, SimulationOptions opts) : model(circuit), options(std::move(opts)) {
     options.validate();
@@ -727,6 +737,7 @@ struct Simulation::Impl {
 
   // Handles the device event of diode index d found at the end of the current piece.
   bool state_event(int d) {
+    steps_valid = false;  // a period with a state event does not repeat exactly
     const DevicePattern bit = DevicePattern{1} << diode_bits[d];
     const bool was_on = pattern & bit;
     pattern ^= bit;
@@ -1061,6 +1072,7 @@ struct Simulation::Impl {
       if (which >= 0) piece.truncate(std::max(s_event, 0.0));
       const double h_piece = piece.duration_s();
       finish_piece(h_piece);
+      if (steps_valid) steps_now.push_back({current, pattern, h_piece});
       z = end_z;  // the end state, summed by the piece's moments in finish_piece()
       tau = last ? span : tau + h_piece;
       t = last ? t_target : t_base + tau;
@@ -1249,30 +1261,53 @@ struct Simulation::Impl {
     cycle_metrics = CycleMetrics{};
     in_idle = false;
     cycle.reset(recorded.size(), energy_elements.size());
+    replay.clear();
+    steps_before.clear();
+    replay_next = false;
+  }
+
+  void begin_cycle() {
+    cycle.reset(recorded.size(), energy_elements.size());
+    cycle.stored_start = stored_energy();
+    cycle_start_state = z.head(n_x);
   }
 
   // Time inside a period is kept as an offset tau from the period start (origin, long double),
   // so that every stretch between two scheduled events has the precision of the offset and not
   // of the absolute time: errors do not grow with the length of the run.
-  bool run_cycle(long k) {
-    const long double origin = static_cast<long double>(k) * period_s;
-    const double start = static_cast<double>(origin);
-    cycle.reset(recorded.size(), energy_elements.size());
-    cycle.stored_start = stored_energy();
-    Eigen::VectorXd& x_start = cycle_start_state;
-    x_start = z.head(n_x);
+  bool piece_cycle(long k, long double origin) {
+    steps_now.clear();
+    steps_valid = replay_allowed(k);
     double tau = 0.0;
     while (period_s - tau > options.event_time_tolerance * period_s) {
       const double tau_next = std::min(
           {gates->next_edge_in_period(k, origin, tau), next_breakpoint(origin, tau), period_s});
       if (!advance_until(t + (tau_next - tau), tau_next - tau)) return false;
       tau = tau_next;
+      if (steps_valid) steps_now.push_back({nullptr, 0, tau});
       t = static_cast<double>(origin + tau);
       if (!apply_schedule()) return false;
     }
+    arm_replay();
+    return true;
+  }
+
+  bool run_cycle(long k) {
+    const long double origin = static_cast<long double>(k) * period_s;
+    const double start = static_cast<double>(origin);
+    begin_cycle();
+    const int replayed = replay_next ? replay_cycle(origin) : 0;
+    if (replayed < 0) return false;
+    if (replayed > 0) {
+      ++summary.replayed_periods;
+    } else {
+      if (replay_next) begin_cycle();  // the replay gave up and restored the state
+      replay_next = false;
+      if (!piece_cycle(k, origin)) return false;
+    }
     update_scales();
     CycleMetrics& m = cycle_metrics;
-    finish_cycle(k, start, x_start, m);
+    finish_cycle(k, start, cycle_start_state, m);
     if (output_recorded >= 0) {
       const SignalStats& out = m.signals[output_recorded];
       output_averages.push_back(static_cast<float>(out.average));
@@ -1282,6 +1317,167 @@ struct Simulation::Impl {
     if (observer) observer->on_cycle(m);
     summary.cycles = k + 1;  // m becomes summary.last_cycle when the run ends
     return true;
+  }
+
+  // ---- replay of a repeating period (detail/period_replay.hpp) ------------------------------
+
+  // Whether period k can be recorded for a replay: its edges and sources repeat in every later
+  // period, and nothing needs the pieces themselves.
+  bool replay_allowed(long k) const {
+    return options.replay_repeating_periods && options.cache && !observer && !nonlinear &&
+           inputs_constant && gates->periodic_at(k);
+  }
+
+  // After a period of the piece engine: the next period is replayed when this one had no state
+  // event and ran the same steps as the period before it (or as the replay already built).
+  void arm_replay() {
+    constexpr std::size_t kMaxSteps = 4096;  // bounds the operators' memory
+    replay_next = false;
+    if (!steps_valid || cycle.idle_time > 0 || steps_now.empty() || !steps_now.front().data ||
+        steps_now.size() > kMaxSteps) {
+      steps_before.clear();
+      return;
+    }
+    if (replay.built() && steps_now == replay.steps())
+      replay_next = true;
+    else if (steps_now == steps_before)
+      replay_next = replay.build(steps_now, n_z, replay_functionals());
+    std::swap(steps_before, steps_now);
+  }
+
+  detail::ReplayFunctionals replay_functionals() {
+    detail::ReplayFunctionals f;
+    f.signals = static_cast<int>(recorded.size());
+    f.energies = options.energy_accounting;
+    replay_extra_inductors.clear();
+    replay_signal_inductor.assign(recorded.size(), -1);
+    for (std::size_t k = 0; k < inductor_states.size(); ++k) {
+      if (inductor_recorded[k] >= 0) {
+        replay_signal_inductor[inductor_recorded[k]] = static_cast<int>(k);
+        continue;
+      }
+      replay_extra_inductors.push_back(static_cast<int>(k));
+      f.extra_states.push_back(inductor_states[k]);
+    }
+    return f;
+  }
+
+  // 1: the period was replayed; 0: it does not repeat, the state is restored and the piece
+  // engine must run it; -1: the run failed at a gate edge.
+  int replay_cycle(long double origin) {
+    const std::vector<detail::PeriodStep>& steps = replay.steps();
+    replay_start = z;
+    const DevicePattern pattern_start = pattern;
+    const PatternData* current_start = current;
+    const long events_start = summary.events;
+    const double t_start = t;
+    const bool idle_start = in_idle;
+    for (std::size_t i = 0; i < steps.size(); ++i) {
+      const detail::PeriodStep& step = steps[i];
+      if (!step.data) {
+        t = static_cast<double>(origin + step.value);
+        if (!apply_schedule()) return -1;
+        continue;
+      }
+      if (pattern != step.pattern || current != step.data ||
+          !replay_piece(replay.piece(static_cast<int>(i)))) {
+        z = replay_start;
+        pattern = pattern_start;
+        current = current_start;
+        summary.events = events_start;
+        t = t_start;
+        in_idle = idle_start;
+        return 0;
+      }
+    }
+    replay.period_integrals(replay_start, cycle.integral.data(), cycle.square_integral.data(),
+                            cycle.element_energy.data());
+    if (options.energy_accounting)
+      for (std::size_t k = 0; k < energy_elements.size(); ++k)
+        (energy_elements[k].second.role == EnergyRole::kSource ? cycle.energy_in
+                                                               : cycle.dissipated) +=
+            cycle.element_energy[k];
+    return 1;
+  }
+
+  // One piece of a replayed period: extrema, then the transition. False when a device
+  // condition may cross zero inside it.
+  bool replay_piece(const detail::PeriodReplay::Piece& pc) {
+    replay_values.resize(pc.on_state.rows());
+    replay_bound.resize(pc.on_magnitude.rows());
+    replay_abs = z.cwiseAbs();
+    detail::apply(pc.on_state, z.data(), replay_values.data());
+    detail::apply(pc.on_magnitude, replay_abs.data(), replay_bound.data());
+    if (!replay_keeps_devices(pc)) return false;
+    replay_extrema(pc);
+    record_interval(pc.h);
+    z.head(pc.dynamic_rows) = replay_values.segment(pc.transition_row(), pc.dynamic_rows);
+    return true;
+  }
+
+  // No device condition crosses zero on the piece: g(0) exceeds the bound on its variation, or
+  // else the piece engine's own event search on the expanded piece finds no event.
+  bool replay_keeps_devices(const detail::PeriodReplay::Piece& pc) {
+    for (int d = 0; d < pc.conditions; ++d) {
+      if (replay_values[d] > replay_bound[d]) continue;
+      if (!piece.expand(current->M, z, pc.h, current->dynamic_rows)) return false;
+      return find_event(options.event_time_tolerance * period_s / pc.h).second < 0;
+    }
+    return true;
+  }
+
+  // Extremes of the recorded signals on the piece and the inductor peaks. An interior extremum
+  // lies within f(0) +- the variation bound, so its polynomial is evaluated only where that
+  // band reaches past what is known already (this period's extremes, the run's peak).
+  void replay_extrema(const detail::PeriodReplay::Piece& pc) {
+    const int signals = static_cast<int>(recorded.size());
+    const double* variation = replay_bound.data() + pc.conditions;
+    double a[detail::TaylorPiece::kMaxOrder + 1];
+    for (int f = 0; f < signals; ++f) {
+      const double* v = replay_values.data() + pc.ends_row() + 4 * f;
+      double lo = std::min(v[0], v[1]), hi = std::max(v[0], v[1]);
+      double& cycle_lo = cycle.min[f];
+      double& cycle_hi = cycle.max[f];
+      cycle_lo = std::min(cycle_lo, lo);
+      cycle_hi = std::max(cycle_hi, hi);
+      const double band = variation[f];
+      const int inductor = replay_signal_inductor[f];
+      const double peak_floor =
+          inductor >= 0 ? summary.startup.peak_inductor_current_a[inductor] : kInf;
+      const bool may_matter =
+          v[0] - band < cycle_lo || v[0] + band > cycle_hi || std::abs(v[0]) + band > peak_floor;
+      if (may_matter && slope_changes_sign(v[2], v[3])) {
+        detail::apply(pc.polynomial[f], z.data(), a);
+        const double e = poly::interior_extremum(a, pc.order, v[2], v[3], kExtremumTolerance);
+        lo = std::min(lo, e);
+        hi = std::max(hi, e);
+        cycle_lo = std::min(cycle_lo, lo);
+        cycle_hi = std::max(cycle_hi, hi);
+      }
+      if (inductor >= 0) {
+        double& best = summary.startup.peak_inductor_current_a[inductor];
+        best = std::max({best, std::abs(lo), std::abs(hi)});
+      }
+    }
+    for (std::size_t x = 0; x < replay_extra_inductors.size(); ++x) {
+      const int k = replay_extra_inductors[x];
+      double& best = summary.startup.peak_inductor_current_a[k];
+      const double y0 = z[inductor_states[k]];
+      if (std::abs(y0) + variation[signals + x] <= best) continue;
+      const std::size_t f = static_cast<std::size_t>(signals) + x;
+      detail::apply(pc.polynomial[f], z.data(), a);
+      double y1 = 0.0, d1 = 0.0;
+      for (int m = 0; m <= pc.order; ++m) {
+        y1 += a[m];
+        d1 += m * a[m];
+      }
+      double peak = std::max(std::abs(y0), std::abs(y1));
+      const double d0 = pc.order >= 1 ? a[1] : 0.0;
+      if (slope_changes_sign(d0, d1))
+        peak = std::max(peak,
+                        std::abs(poly::interior_extremum(a, pc.order, d0, d1, kExtremumTolerance)));
+      best = std::max(best, peak);
+    }
   }
 
   void finish_startup() {

@@ -64,6 +64,12 @@ struct SimulationOptions {
   double boundary_tolerance = 1e-3;
   // Cache configuration models and transition data (off only to check the cache).
   bool cache = true;
+  // Replay a switching period that repeats exactly (constant sources, periodic gates, no state
+  // event: CCM in steady state) from operators built once for its sequence of pieces, checked
+  // piece by piece and replaced by the piece engine where the period no longer repeats. Needs
+  // `cache`; not used while an observer is attached (observers see every piece). Off only to
+  // check it: results agree with the piece engine to rounding.
+  bool replay_repeating_periods = true;
   // Per-cycle energy from sources, change in stored energy and energy dissipated.
   bool energy_accounting = true;
   // ODE path (circuits with saturating inductors or constant-power loads): error tolerances of
@@ -149,6 +155,7 @@ struct RunSummary {
   long events = 0;
   std::size_t configurations_built = 0;
   std::size_t cache_hits = 0;
+  long replayed_periods = 0;  // periods computed by SimulationOptions::replay_repeating_periods
   double wall_time_s = 0.0;
   double end_time_s = 0.0;
   std::vector<SignalInfo> recorded;

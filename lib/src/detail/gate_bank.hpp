@@ -30,6 +30,10 @@ class GateBank {
   // every switch gate repeats with that period and no duty ramps any more, the edge offsets of
   // one period are found once and reused: the same offsets, without the long-double search.
   double next_edge_in_period(long period_index, long double origin, double tau) const;
+  // True when the edges of run period `period_index` are those of every later period.
+  bool periodic_at(long period_index) const {
+    return periodic_from_ >= 0 && period_index >= periodic_from_;
+  }
   // Mask of the switch bits in a DevicePattern.
   DevicePattern switch_mask() const { return switch_mask_; }
 

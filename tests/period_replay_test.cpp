@@ -1,0 +1,178 @@
+// Replay of repeating periods (SimulationOptions::replay_repeating_periods) against the piece
+// engine. The engine's requirement is invariance: results agree to 1e-12 whether the cached
+// transition data are used or not. The piece engine itself is checked against published
+// results elsewhere (closed_form_test.cpp, analytic_circuit_test.cpp); here every figure of a
+// replayed run must equal the piece engine's to rounding. The circuits are invented demo data.
+#include <gtest/gtest.h>
+
+#include <algorithm>
+#include <cmath>
+#include <string>
+
+#include "pulsewise/pulsewise.hpp"
+#include "test_circuits.hpp"
+
+namespace pulsewise {
+namespace {
+
+// 1e-12 of the quantity's scale: the invariance bound. Rounding differs between the
+// two paths (operators built once against a series per piece), by about 1e-15 per period.
+constexpr double kInvariance = 1e-12;
+
+void expect_close(double a, double b, double scale, const std::string& what) {
+  EXPECT_LE(std::abs(a - b), kInvariance * std::max({std::abs(a), std::abs(b), scale}))
+      << what << ": replayed " << a << ", piece engine " << b;
+}
+
+RunSummary run(const Circuit& circuit, long periods, bool replay) {
+  SimulationOptions options;
+  options.periods = periods;
+  options.output_signal = "out.v";
+  options.replay_repeating_periods = replay;
+  Simulation sim(circuit, options);
+  return sim.run();
+}
+
+// Every figure of the summary: the last period's metrics, the start-up figures, the state.
+void expect_same_run(const RunSummary& replayed, const RunSummary& direct) {
+  ASSERT_TRUE(replayed.ok()) << replayed.message;
+  ASSERT_TRUE(direct.ok()) << direct.message;
+  EXPECT_EQ(replayed.cycles, direct.cycles);
+  EXPECT_EQ(replayed.events, direct.events);
+  const CycleMetrics& a = replayed.last_cycle;
+  const CycleMetrics& b = direct.last_cycle;
+  EXPECT_EQ(a.mode, b.mode);
+  EXPECT_EQ(a.events, b.events);
+  ASSERT_EQ(a.intervals.size(), b.intervals.size());
+  for (std::size_t i = 0; i < a.intervals.size(); ++i) {
+    EXPECT_EQ(a.intervals[i].pattern, b.intervals[i].pattern);
+    expect_close(a.intervals[i].fraction, b.intervals[i].fraction, 1.0, "interval fraction");
+  }
+  ASSERT_EQ(a.signals.size(), b.signals.size());
+  for (std::size_t j = 0; j < a.signals.size(); ++j) {
+    const std::string name = replayed.recorded[j].name;
+    const double scale = std::max(std::abs(b.signals[j].min), std::abs(b.signals[j].max));
+    expect_close(a.signals[j].average, b.signals[j].average, scale, name + " average");
+    expect_close(a.signals[j].rms, b.signals[j].rms, scale, name + " rms");
+    expect_close(a.signals[j].min, b.signals[j].min, scale, name + " min");
+    expect_close(a.signals[j].max, b.signals[j].max, scale, name + " max");
+  }
+  const double energy = std::abs(b.energy_in_j);
+  expect_close(a.energy_in_j, b.energy_in_j, energy, "energy in");
+  expect_close(a.dissipated_j, b.dissipated_j, energy, "dissipated");
+  expect_close(a.stored_energy_change_j, b.stored_energy_change_j, energy, "stored change");
+  ASSERT_EQ(a.element_energy.size(), b.element_energy.size());
+  for (std::size_t k = 0; k < a.element_energy.size(); ++k)
+    expect_close(a.element_energy[k].energy_j, b.element_energy[k].energy_j, energy,
+                 "element energy " + std::to_string(k));
+  ASSERT_EQ(replayed.startup.peak_inductor_current_a.size(),
+            direct.startup.peak_inductor_current_a.size());
+  for (std::size_t k = 0; k < direct.startup.peak_inductor_current_a.size(); ++k)
+    expect_close(replayed.startup.peak_inductor_current_a[k],
+                 direct.startup.peak_inductor_current_a[k], 0.0,
+                 "peak current of " + direct.startup.inductors[k]);
+  expect_close(replayed.startup.output_peak, direct.startup.output_peak, 0.0, "output peak");
+  EXPECT_EQ(replayed.startup.settling_cycle, direct.startup.settling_cycle);
+  ASSERT_EQ(replayed.final_state.size(), direct.final_state.size());
+  for (Eigen::Index s = 0; s < direct.final_state.size(); ++s)
+    expect_close(replayed.final_state[s], direct.final_state[s],
+                 direct.final_state.cwiseAbs().maxCoeff(), replayed.state_names[s]);
+}
+
+// Two-phase buck, 24 V to about 5 V, with an input LC filter, inductor DCR and capacitor ESR:
+// CCM at 1 ohm (ripple about 1.5 A p-p per phase against 2.5 A per phase), so every period
+// after the start-up runs the same pieces. Recording every state and node voltage gives
+// signals whose slope changes sign inside pieces (interior extrema).
+Circuit interleaved_buck() {
+  PwmModulator a = test::pwm(300e3, 0.22, "pwm_a");
+  PwmModulator b = test::pwm(300e3, 0.22, "pwm_b");
+  b.phase = 0.5;
+  Circuit c;
+  c.add_voltage_source("Vin", "src", "0", Waveform::constant(24.0))
+      .add_inductor("Lf", "src", "bus", 1.5e-6, InductorOptions{20e-3})
+      .add_capacitor("Cbus", "bus", "0", 22e-6, CapacitorOptions{5e-3})
+      .add_switch("Sa", "bus", "swa", "pwm_a", SwitchOptions{15e-3, kOpen})
+      .add_diode("Da", "0", "swa", DiodeOptions{20e-3, 0.4, kOpen})
+      .add_inductor("La", "swa", "out", 6.8e-6, InductorOptions{8e-3})
+      .add_switch("Sb", "bus", "swb", "pwm_b", SwitchOptions{15e-3, kOpen})
+      .add_diode("Db", "0", "swb", DiodeOptions{20e-3, 0.4, kOpen})
+      .add_inductor("Lb", "swb", "out", 6.8e-6, InductorOptions{8e-3})
+      .add_capacitor("Cout", "out", "0", 100e-6, CapacitorOptions{3e-3})
+      .add_resistor("Rload", "out", "0", 1.0)
+      .add_modulator(std::move(a))
+      .add_modulator(std::move(b));
+  return c;
+}
+
+// Synchronous buck with dead time at light load: the inductor current turns negative every
+// period, and the body diodes conduct in the dead times (forced on at each gate edge, by the
+// consistency search the replay reruns at every edge).
+Circuit synchronous_buck_light_load() {
+  ComplementaryPwm pair;
+  pair.name = "bridge";
+  pair.frequency_hz = 400e3;
+  pair.duty_cycle = 0.4;
+  pair.dead_time_s = 40e-9;
+  Circuit c;
+  c.add_voltage_source("Vin", "in", "0", Waveform::constant(12.0))
+      .add_switch("Shigh", "in", "sw", "bridge.high", SwitchOptions{8e-3, kOpen})
+      .add_diode("Dhigh", "sw", "in", DiodeOptions{10e-3, 0.7, kOpen})
+      .add_switch("Slow", "sw", "0", "bridge.low", SwitchOptions{5e-3, kOpen})
+      .add_diode("Dlow", "0", "sw", DiodeOptions{10e-3, 0.7, kOpen})
+      .add_inductor("L1", "sw", "out", 2.2e-6, InductorOptions{4e-3})
+      .add_capacitor("Cout", "out", "0", 47e-6, CapacitorOptions{2e-3})
+      .add_resistor("Rload", "out", "0", 20.0)
+      .add_modulator(std::move(pair));
+  return c;
+}
+
+TEST(PeriodReplay, ReplayedPeriodsEqualThePieceEngineInACcmInterleavedBuck) {
+  const Circuit circuit = interleaved_buck();
+  for (long periods : {50L, 400L}) {
+    SCOPED_TRACE(std::to_string(periods) + " periods");
+    const RunSummary replayed = run(circuit, periods, true);
+    const RunSummary direct = run(circuit, periods, false);
+    EXPECT_EQ(direct.replayed_periods, 0);
+    // Not vacuous: the start-up (about its first 25 periods, where the sequence of pieces still
+    // changes from period to period) runs on the piece engine, every later period is a replay.
+    EXPECT_GE(replayed.replayed_periods, periods - 30);
+    EXPECT_EQ(replayed.last_cycle.mode, ConductionMode::kCcm);
+    expect_same_run(replayed, direct);
+  }
+}
+
+TEST(PeriodReplay, ReplayedPeriodsEqualThePieceEngineWithBodyDiodesInTheDeadTimes) {
+  const Circuit circuit = synchronous_buck_light_load();
+  const RunSummary replayed = run(circuit, 300, true);
+  const RunSummary direct = run(circuit, 300, false);
+  EXPECT_GE(replayed.replayed_periods, 250);  // all but the start-up (about 30 periods)
+  // The light load takes the inductor current below zero in every period.
+  const std::size_t inductor =
+      static_cast<std::size_t>(std::find_if(replayed.recorded.begin(), replayed.recorded.end(),
+                                            [](const SignalInfo& s) { return s.name == "L1.i"; }) -
+                               replayed.recorded.begin());
+  ASSERT_LT(inductor, replayed.recorded.size());
+  EXPECT_LT(replayed.last_cycle.signals[inductor].min, 0.0);
+  expect_same_run(replayed, direct);
+}
+
+// The boost of test_circuits.hpp starts from rest in CCM (the output is still below the input)
+// and ends in DCM: the replay runs the first periods and must give up at the first period in
+// which the diode current reaches zero, where the piece engine takes over.
+TEST(PeriodReplay, GivesUpAtTheFirstDiodeTurnOffWhenTheStartUpEndsInDcm) {
+  const Circuit circuit = test::dcm_boost();
+  for (long periods : {8L, 30L, 300L}) {
+    SCOPED_TRACE(std::to_string(periods) + " periods");
+    const RunSummary replayed = run(circuit, periods, true);
+    const RunSummary direct = run(circuit, periods, false);
+    expect_same_run(replayed, direct);
+    if (periods == 300) {
+      EXPECT_GT(replayed.replayed_periods, 0);
+      EXPECT_LT(replayed.replayed_periods, 100);
+      EXPECT_EQ(replayed.last_cycle.mode, ConductionMode::kDcm);
+    }
+  }
+}
+
+}  // namespace
+}  // namespace pulsewise
