@@ -164,8 +164,16 @@ struct Simulation::Impl {
   detail::PeriodReplay replay;
   std::vector<detail::PeriodStep> steps_now, steps_before;
   bool steps_valid = false, replay_next = false;
+  int replay_builds = 0;
+  long last_replay_build = 0;
   std::vector<int> replay_extra_inductors;  // inductor index of each extra replay state
   Eigen::VectorXd replay_start, replay_values, replay_abs, replay_bound;
+  struct PendingExtremum {
+    int step, signal;
+    double y0, d0, d1, band;  // value and slopes d/ds at the piece's ends, variation bound
+  };
+  std::vector<PendingExtremum> replay_pending;
+  Eigen::MatrixXd replay_states;            // start state of each step with a pending extremum
   std::vector<int> replay_signal_inductor;  // per recorded signal: its inductor index, or -1
 
   Impl(const Circuit& circuit, SimulationOptions opts) : model(circuit), options(std::move(opts)) {
@@ -1083,8 +1091,9 @@ struct Simulation::Impl {
   }
 
   // Gate edges and source breakpoints at the current time.
-  bool apply_schedule() {
-    const DevicePattern switches = gates->switch_pattern(t);
+  bool apply_schedule() { return apply_schedule(gates->switch_pattern(t)); }
+  // The same with the switch pattern just after t given (a replay knows it from its plan).
+  bool apply_schedule(DevicePattern switches) {
     Eigen::VectorXd& u = u_new;
     Eigen::VectorXd& du = du_new;
     const bool inputs_changed = update_inputs(u, du);
@@ -1264,6 +1273,7 @@ struct Simulation::Impl {
     replay.clear();
     steps_before.clear();
     replay_next = false;
+    replay_builds = 0;
   }
 
   void begin_cycle() {
@@ -1284,11 +1294,12 @@ struct Simulation::Impl {
           {gates->next_edge_in_period(k, origin, tau), next_breakpoint(origin, tau), period_s});
       if (!advance_until(t + (tau_next - tau), tau_next - tau)) return false;
       tau = tau_next;
-      if (steps_valid) steps_now.push_back({nullptr, 0, tau});
       t = static_cast<double>(origin + tau);
-      if (!apply_schedule()) return false;
+      const DevicePattern switches = gates->switch_pattern(t);
+      if (steps_valid) steps_now.push_back({nullptr, switches, tau});
+      if (!apply_schedule(switches)) return false;
     }
-    arm_replay();
+    arm_replay(k);
     return true;
   }
 
@@ -1330,7 +1341,16 @@ struct Simulation::Impl {
 
   // After a period of the piece engine: the next period is replayed when this one had no state
   // event and ran the same steps as the period before it (or as the replay already built).
-  void arm_replay() {
+  // A circuit whose sequence of pieces keeps changing after short repeats (a slow drift between
+  // patterns) would rebuild the operators again and again: after a few builds, at most one
+  // build per kRebuildSpacing periods.
+  bool replay_builds_allowed(long k) const {
+    constexpr int kFreeBuilds = 16;
+    constexpr long kRebuildSpacing = 64;
+    return replay_builds < kFreeBuilds || k - last_replay_build >= kRebuildSpacing;
+  }
+
+  void arm_replay(long k) {
     constexpr std::size_t kMaxSteps = 4096;  // bounds the operators' memory
     replay_next = false;
     if (!steps_valid || cycle.idle_time > 0 || steps_now.empty() || !steps_now.front().data ||
@@ -1338,10 +1358,13 @@ struct Simulation::Impl {
       steps_before.clear();
       return;
     }
-    if (replay.built() && steps_now == replay.steps())
+    if (replay.built() && steps_now == replay.steps()) {
       replay_next = true;
-    else if (steps_now == steps_before)
+    } else if (steps_now == steps_before && replay_builds_allowed(k)) {
       replay_next = replay.build(steps_now, n_z, replay_functionals());
+      ++replay_builds;
+      last_replay_build = k;
+    }
     std::swap(steps_before, steps_now);
   }
 
@@ -1372,15 +1395,17 @@ struct Simulation::Impl {
     const long events_start = summary.events;
     const double t_start = t;
     const bool idle_start = in_idle;
+    replay_pending.clear();
+    replay_states.resize(n_z, static_cast<Eigen::Index>(steps.size()));
     for (std::size_t i = 0; i < steps.size(); ++i) {
       const detail::PeriodStep& step = steps[i];
       if (!step.data) {
         t = static_cast<double>(origin + step.value);
-        if (!apply_schedule()) return -1;
+        if (!apply_schedule(step.pattern)) return -1;
         continue;
       }
       if (pattern != step.pattern || current != step.data ||
-          !replay_piece(replay.piece(static_cast<int>(i)))) {
+          !replay_piece(replay.piece(static_cast<int>(i)), static_cast<int>(i))) {
         z = replay_start;
         pattern = pattern_start;
         current = current_start;
@@ -1390,6 +1415,7 @@ struct Simulation::Impl {
         return 0;
       }
     }
+    replay_interior_extrema();
     replay.period_integrals(replay_start, cycle.integral.data(), cycle.square_integral.data(),
                             cycle.element_energy.data());
     if (options.energy_accounting)
@@ -1402,14 +1428,14 @@ struct Simulation::Impl {
 
   // One piece of a replayed period: extrema, then the transition. False when a device
   // condition may cross zero inside it.
-  bool replay_piece(const detail::PeriodReplay::Piece& pc) {
+  bool replay_piece(const detail::PeriodReplay::Piece& pc, int step) {
     replay_values.resize(pc.on_state.rows());
     replay_bound.resize(pc.on_magnitude.rows());
     replay_abs = z.cwiseAbs();
     detail::apply(pc.on_state, z.data(), replay_values.data());
     detail::apply(pc.on_magnitude, replay_abs.data(), replay_bound.data());
     if (!replay_keeps_devices(pc)) return false;
-    replay_extrema(pc);
+    replay_extrema(pc, step);
     record_interval(pc.h);
     z.head(pc.dynamic_rows) = replay_values.segment(pc.transition_row(), pc.dynamic_rows);
     return true;
@@ -1426,39 +1452,28 @@ struct Simulation::Impl {
     return true;
   }
 
-  // Extremes of the recorded signals on the piece and the inductor peaks. An interior extremum
-  // lies within f(0) +- the variation bound, so its polynomial is evaluated only where that
-  // band reaches past what is known already (this period's extremes, the run's peak).
-  void replay_extrema(const detail::PeriodReplay::Piece& pc) {
+  // Extremes of the recorded signals and the inductor peaks: the end values of every piece at
+  // once; an interior extremum (where the slope changes sign) is kept for the end of the period,
+  // when the period's extremes from the end values are known.
+  void replay_extrema(const detail::PeriodReplay::Piece& pc, int step) {
     const int signals = static_cast<int>(recorded.size());
     const double* variation = replay_bound.data() + pc.conditions;
-    double a[detail::TaylorPiece::kMaxOrder + 1];
+    bool pending = false;
     for (int f = 0; f < signals; ++f) {
       const double* v = replay_values.data() + pc.ends_row() + 4 * f;
-      double lo = std::min(v[0], v[1]), hi = std::max(v[0], v[1]);
-      double& cycle_lo = cycle.min[f];
-      double& cycle_hi = cycle.max[f];
-      cycle_lo = std::min(cycle_lo, lo);
-      cycle_hi = std::max(cycle_hi, hi);
-      const double band = variation[f];
-      const int inductor = replay_signal_inductor[f];
-      const double peak_floor =
-          inductor >= 0 ? summary.startup.peak_inductor_current_a[inductor] : kInf;
-      const bool may_matter =
-          v[0] - band < cycle_lo || v[0] + band > cycle_hi || std::abs(v[0]) + band > peak_floor;
-      if (may_matter && slope_changes_sign(v[2], v[3])) {
-        detail::apply(pc.polynomial[f], z.data(), a);
-        const double e = poly::interior_extremum(a, pc.order, v[2], v[3], kExtremumTolerance);
-        lo = std::min(lo, e);
-        hi = std::max(hi, e);
-        cycle_lo = std::min(cycle_lo, lo);
-        cycle_hi = std::max(cycle_hi, hi);
-      }
-      if (inductor >= 0) {
+      cycle.min[f] = std::min({cycle.min[f], v[0], v[1]});
+      cycle.max[f] = std::max({cycle.max[f], v[0], v[1]});
+      if (const int inductor = replay_signal_inductor[f]; inductor >= 0) {
         double& best = summary.startup.peak_inductor_current_a[inductor];
-        best = std::max({best, std::abs(lo), std::abs(hi)});
+        best = std::max({best, std::abs(v[0]), std::abs(v[1])});
+      }
+      if (slope_changes_sign(v[2], v[3])) {
+        replay_pending.push_back({step, f, v[0], v[2], v[3], variation[f]});
+        pending = true;
       }
     }
+    if (pending) replay_states.col(step) = z;
+    double a[detail::TaylorPiece::kMaxOrder + 1];
     for (std::size_t x = 0; x < replay_extra_inductors.size(); ++x) {
       const int k = replay_extra_inductors[x];
       double& best = summary.startup.peak_inductor_current_a[k];
@@ -1477,6 +1492,26 @@ struct Simulation::Impl {
         peak = std::max(peak,
                         std::abs(poly::interior_extremum(a, pc.order, d0, d1, kExtremumTolerance)));
       best = std::max(best, peak);
+    }
+  }
+
+  // The interior extrema kept by replay_extrema(). One lies within y(0) +- the variation bound,
+  // so its polynomial is evaluated only where that band reaches past the period's extremes (or
+  // the run's peak of an inductor current).
+  void replay_interior_extrema() {
+    double a[detail::TaylorPiece::kMaxOrder + 1];
+    for (const PendingExtremum& e : replay_pending) {
+      const int inductor = replay_signal_inductor[e.signal];
+      double* best = inductor >= 0 ? &summary.startup.peak_inductor_current_a[inductor] : nullptr;
+      if (e.y0 - e.band >= cycle.min[e.signal] && e.y0 + e.band <= cycle.max[e.signal] &&
+          (!best || std::abs(e.y0) + e.band <= *best))
+        continue;
+      const detail::PeriodReplay::Piece& pc = replay.piece(e.step);
+      detail::apply(pc.polynomial[e.signal], replay_states.col(e.step).data(), a);
+      const double v = poly::interior_extremum(a, pc.order, e.d0, e.d1, kExtremumTolerance);
+      cycle.min[e.signal] = std::min(cycle.min[e.signal], v);
+      cycle.max[e.signal] = std::max(cycle.max[e.signal], v);
+      if (best) *best = std::max(*best, std::abs(v));
     }
   }
 

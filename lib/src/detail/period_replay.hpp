@@ -25,8 +25,8 @@ namespace pulsewise::detail {
 // or the scheduled events at offset tau from the period start (data null, value = tau).
 struct PeriodStep {
   const PatternData* data = nullptr;
-  DevicePattern pattern = 0;
-  double value = 0.0;  // h of a piece or tau of a schedule step, s
+  DevicePattern pattern = 0;  // of the piece, or the switches just after a schedule step
+  double value = 0.0;         // h of a piece or tau of a schedule step, s
   bool operator==(const PeriodStep&) const = default;
 };
 
