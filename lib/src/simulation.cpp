@@ -621,7 +621,8 @@ struct Simulation::Impl {
   // ---- pieces ------------------------------------------------------------------------------
 
   // Earliest device event inside the current piece: (s, diode index) or (-1, -1).
-  std::pair<double, int> find_event(double s_tolerance) {
+  // Inlined into the piece loop of advance_until (its other caller, the replay, is rare).
+  [[gnu::always_inline]] std::pair<double, int> find_event(double s_tolerance) {
     const int order = piece.order();
     const double* z0 = piece.terms().data();
     double best = kInf;
