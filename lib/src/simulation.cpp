@@ -1396,6 +1396,7 @@ struct Simulation::Impl {
     const long events_start = summary.events;
     const double t_start = t;
     const bool idle_start = in_idle;
+    const int switch_off_start = last_switch_off;
     replay_pending.clear();
     replay_states.resize(n_z, static_cast<Eigen::Index>(steps.size()));
     for (std::size_t i = 0; i < steps.size(); ++i) {
@@ -1413,6 +1414,7 @@ struct Simulation::Impl {
         summary.events = events_start;
         t = t_start;
         in_idle = idle_start;
+        last_switch_off = switch_off_start;
         return 0;
       }
     }
