@@ -90,6 +90,12 @@ class PeriodReplay {
                         double* element_energy) const;
 
  private:
+  static Piece piece_rows(const PatternData& pd, double h, const ReplayFunctionals& f,
+                          const std::vector<Eigen::MatrixXd>& terms,
+                          const Eigen::MatrixXd& transition);
+  void add_forms(const PatternData& pd, const Piece& pc, const std::vector<Eigen::MatrixXd>& terms,
+                 const Eigen::MatrixXd& to_piece);
+
   std::vector<PeriodStep> steps_;
   std::vector<int> piece_of_step_;
   std::vector<Piece> pieces_;
