@@ -51,8 +51,11 @@ void expect_same_run(const Circuit& circuit, const RunSummary& replayed, const R
   ASSERT_TRUE(direct.ok()) << direct.message;
   EXPECT_EQ(replayed.cycles, direct.cycles);
   EXPECT_EQ(replayed.events, direct.events);
+  EXPECT_EQ(replayed.end_time_s, direct.end_time_s);
   const CycleMetrics& a = replayed.last_cycle;
   const CycleMetrics& b = direct.last_cycle;
+  EXPECT_EQ(a.index, b.index);
+  EXPECT_EQ(a.start_time_s, b.start_time_s);
   EXPECT_EQ(a.mode, b.mode);
   EXPECT_EQ(a.events, b.events);
   ASSERT_EQ(a.intervals.size(), b.intervals.size());
@@ -85,10 +88,18 @@ void expect_same_run(const Circuit& circuit, const RunSummary& replayed, const R
                  "peak current of " + direct.startup.inductors[k]);
   expect_close(replayed.startup.output_peak, direct.startup.output_peak, 0.0, "output peak");
   EXPECT_EQ(replayed.startup.settling_cycle, direct.startup.settling_cycle);
+  EXPECT_EQ(replayed.startup.steady_state_cycle, direct.startup.steady_state_cycle);
   ASSERT_EQ(replayed.final_state.size(), direct.final_state.size());
   for (Eigen::Index s = 0; s < direct.final_state.size(); ++s)
     expect_close(replayed.final_state[s], direct.final_state[s],
                  direct.final_state.cwiseAbs().maxCoeff(), replayed.state_names[s]);
+}
+
+double output_average(const RunSummary& summary) {
+  for (std::size_t j = 0; j < summary.recorded.size(); ++j)
+    if (summary.recorded[j].name == "out.v") return summary.last_cycle.signals[j].average;
+  ADD_FAILURE() << "out.v is not recorded";
+  return 0.0;
 }
 
 // Two-phase buck, 24 V to about 5 V, with an input LC filter, inductor DCR and capacitor ESR:
@@ -199,6 +210,79 @@ TEST(PeriodReplay, GivesUpAtTheFirstDiodeTurnOffWhenTheStartUpEndsInDcm) {
       EXPECT_EQ(replayed.last_cycle.mode, ConductionMode::kDcm);
     }
   }
+}
+
+// The DCM boost of test_circuits.hpp with a 10 uF output capacitor: the output settles within
+// about 1 000 periods (R C = 120 periods), and from about period 1 300 on every period starts
+// from the state of the period before, to the last bit.
+Circuit fast_settling_dcm_boost(bool with_load_step) {
+  Circuit c;
+  c.add_voltage_source("Vin", "in", "0", Waveform::constant(12.0))
+      .add_inductor("L1", "in", "sw", 10e-6)
+      .add_switch("S1", "sw", "0", "pwm", SwitchOptions{10e-3, kOpen})
+      .add_diode("D1", "sw", "out", DiodeOptions{10e-3, 0.0, kOpen})
+      .add_capacitor("C1", "out", "0", 10e-6)
+      .add_resistor("Rload", "out", "0", 60.0)
+      .add_modulator(test::pwm(200e3, 0.3));
+  if (with_load_step) {
+    // A second 60 ohm load joins at 12.5 ms, period 2 500, long after the steady state.
+    GateSchedule step;
+    step.name = "load_step";
+    step.changes = {{12.5e-3, true}};
+    c.add_switch("Sload", "out", "extra", "load_step", SwitchOptions{1e-3, kOpen})
+        .add_resistor("Rextra", "extra", "0", 60.0)
+        .add_modulator(std::move(step));
+  }
+  return c;
+}
+
+// A period that ends, to the bit, in the state it began in is repeated, not computed again: the
+// run must end with every figure the piece engine computes period by period.
+TEST(PeriodReplay, PeriodsThatStartWhereThePeriodBeforeStartedRepeatItExactly) {
+  const Circuit circuit = fast_settling_dcm_boost(false);
+  const RunSummary repeated = run(circuit, 3000, true);
+  const RunSummary direct = run(circuit, 3000, false);
+  EXPECT_EQ(direct.repeated_periods, 0);
+  // Not vacuous: most of the run lies past the steady state reached to the last bit.
+  EXPECT_GE(repeated.repeated_periods, 1000);
+  EXPECT_EQ(repeated.last_cycle.mode, ConductionMode::kDcm);
+  EXPECT_GE(repeated.startup.steady_state_cycle, 0);
+  expect_same_run(circuit, repeated, direct);
+}
+
+// The same boost with a load step at period 2 500: its gates do not repeat (a schedule drives
+// one switch), so no period may be taken from the one before, however steady the state.
+TEST(PeriodReplay, NoPeriodRepeatsWhileAGateScheduleLiesAhead) {
+  const Circuit circuit = fast_settling_dcm_boost(true);
+  const RunSummary replayed = run(circuit, 3000, true);
+  const RunSummary direct = run(circuit, 3000, false);
+  EXPECT_EQ(replayed.repeated_periods, 0);
+  expect_same_run(circuit, replayed, direct);
+  // The step halves the load resistance: K = 2L/(R T) doubles and the ideal DCM ratio
+  // M = (1 + sqrt(1 + 4 D^2 / K)) / 2 falls from 1.77 to 1.46 (Erickson & Maksimovic,
+  // Fundamentals of Power Electronics, 2nd ed., ch. 5), so the output must have dropped.
+  const RunSummary before_step = run(circuit, 2400, true);
+  EXPECT_LT(output_average(replayed), 0.9 * output_average(before_step));
+}
+
+// An observer sees every period, so with one attached nothing is repeated or replayed.
+TEST(PeriodReplay, AnObserverSeesEveryPeriodComputed) {
+  struct CountingObserver : Observer {
+    long cycles = 0;
+    bool in_order = true;
+    void on_cycle(const CycleMetrics& m) override {
+      in_order = in_order && m.index == cycles;
+      ++cycles;
+    }
+  } observer;
+  SimulationOptions options;
+  options.periods = 2000;
+  Simulation sim(fast_settling_dcm_boost(false), options);
+  const RunSummary summary = sim.run(&observer);
+  EXPECT_EQ(observer.cycles, 2000);
+  EXPECT_TRUE(observer.in_order);
+  EXPECT_EQ(summary.repeated_periods, 0);
+  EXPECT_EQ(summary.replayed_periods, 0);
 }
 
 }  // namespace

@@ -19,6 +19,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstring>
 #include <limits>
 #include <set>
 #include <sstream>
@@ -175,6 +176,18 @@ struct Simulation::Impl {
   std::vector<PendingExtremum> replay_pending;
   Eigen::MatrixXd replay_states;            // start state of each step with a pending extremum
   std::vector<int> replay_signal_inductor;  // per recorded signal: its inductor index, or -1
+  // Everything a period's computation reads besides the gates' plan, which periodic gates repeat.
+  // When a period ends as it began, to the bit, every later period repeats it (run_cycle).
+  struct PeriodStart {
+    Eigen::VectorXd z;
+    DevicePattern pattern = 0;
+    const PatternData* data = nullptr;
+    bool in_idle = false;
+    int last_switch_off = -1;
+    double current_scale = 0.0, voltage_scale = 0.0;
+  };
+  PeriodStart period_start;
+  bool repeat_next = false;
 
   Impl(const Circuit& circuit, SimulationOptions opts) : model(circuit), options(std::move(opts)) {
     options.validate();
@@ -1275,6 +1288,7 @@ struct Simulation::Impl {
     steps_before.clear();
     replay_next = false;
     replay_builds = 0;
+    repeat_next = false;
   }
 
   void begin_cycle() {
@@ -1306,7 +1320,26 @@ struct Simulation::Impl {
 
   bool run_cycle(long k) {
     const long double origin = static_cast<long double>(k) * period_s;
+    if (repeat_next) {
+      repeat_cycle(k, origin);
+    } else if (!compute_cycle(k, origin)) {
+      return false;
+    }
+    CycleMetrics& m = cycle_metrics;
+    if (output_recorded >= 0) {
+      const SignalStats& out = m.signals[output_recorded];
+      output_averages.push_back(static_cast<float>(out.average));
+      output_max = k == 0 ? out.max : std::max(output_max, out.max);
+      output_min = k == 0 ? out.min : std::min(output_min, out.min);
+    }
+    if (observer) observer->on_cycle(m);
+    summary.cycles = k + 1;  // m becomes summary.last_cycle when the run ends
+    return true;
+  }
+
+  bool compute_cycle(long k, long double origin) {
     const double start = static_cast<double>(origin);
+    capture_period_start();
     begin_cycle();
     const int replayed = replay_next ? replay_cycle(origin) : 0;
     if (replayed < 0) return false;
@@ -1318,17 +1351,44 @@ struct Simulation::Impl {
       if (!piece_cycle(k, origin)) return false;
     }
     update_scales();
-    CycleMetrics& m = cycle_metrics;
-    finish_cycle(k, start, cycle_start_state, m);
-    if (output_recorded >= 0) {
-      const SignalStats& out = m.signals[output_recorded];
-      output_averages.push_back(static_cast<float>(out.average));
-      output_max = k == 0 ? out.max : std::max(output_max, out.max);
-      output_min = k == 0 ? out.min : std::min(output_min, out.min);
-    }
-    if (observer) observer->on_cycle(m);
-    summary.cycles = k + 1;  // m becomes summary.last_cycle when the run ends
+    finish_cycle(k, start, cycle_start_state, cycle_metrics);
+    repeat_next = replay_allowed(k + 1) && ends_as_it_began();
     return true;
+  }
+
+  // ---- repeat of a period that ends as it began ----------------------------------------------
+
+  void capture_period_start() {
+    PeriodStart& s = period_start;
+    s.z = z;
+    s.pattern = pattern;
+    s.data = current;
+    s.in_idle = in_idle;
+    s.last_switch_off = last_switch_off;
+    s.current_scale = current_scale;
+    s.voltage_scale = voltage_scale;
+  }
+
+  // The state compares bit by bit (not by value: -0 and +0 differ), so that the next period,
+  // whose gates and sources repeat this one's (replay_allowed), computes exactly what this one
+  // computed.
+  bool ends_as_it_began() const {
+    const PeriodStart& s = period_start;
+    return s.pattern == pattern && s.data == current && s.in_idle == in_idle &&
+           s.last_switch_off == last_switch_off && s.current_scale == current_scale &&
+           s.voltage_scale == voltage_scale &&
+           std::memcmp(s.z.data(), z.data(), sizeof(double) * static_cast<std::size_t>(n_z)) == 0;
+  }
+
+  // The period before ended as it began, and its gates and sources repeat: this period poses
+  // the same problem from the same state, and its results are that period's. The accumulators
+  // and metrics still hold them; only the index, the time and the event count move on.
+  void repeat_cycle(long k, long double origin) {
+    summary.events += cycle.events;
+    ++summary.repeated_periods;
+    t = static_cast<double>(origin + period_s);
+    cycle_metrics.index = k;
+    cycle_metrics.start_time_s = static_cast<double>(origin);
   }
 
   // ---- replay of a repeating period (detail/period_replay.hpp) ------------------------------

@@ -156,6 +156,9 @@ struct RunSummary {
   std::size_t configurations_built = 0;
   std::size_t cache_hits = 0;
   long replayed_periods = 0;  // periods computed by SimulationOptions::replay_repeating_periods
+  // Periods that began, to the bit, in the state the period before began in, and so repeat it
+  // (also replay_repeating_periods): a steady state reached to the last bit.
+  long repeated_periods = 0;
   double wall_time_s = 0.0;
   double end_time_s = 0.0;
   std::vector<SignalInfo> recorded;
