@@ -29,6 +29,17 @@ RunSummary run(const Circuit& circuit, long periods, bool replay,
   options.periods = periods;
   options.output_signal = "out.v";
   options.replay_repeating_periods = replay;
+  options.repeat_recurring_periods = replay;
+  Simulation sim(circuit, options);
+  return sim.run();
+}
+
+// The replay on in both runs, the repeat of recurring periods on or off.
+RunSummary run_with_repeat(const Circuit& circuit, long periods, bool repeat) {
+  SimulationOptions options;
+  options.periods = periods;
+  options.output_signal = "out.v";
+  options.repeat_recurring_periods = repeat;
   Simulation sim(circuit, options);
   return sim.run();
 }
@@ -93,6 +104,47 @@ void expect_same_run(const Circuit& circuit, const RunSummary& replayed, const R
   for (Eigen::Index s = 0; s < direct.final_state.size(); ++s)
     expect_close(replayed.final_state[s], direct.final_state[s],
                  direct.final_state.cwiseAbs().maxCoeff(), replayed.state_names[s]);
+}
+
+// A repeated period is the same computation on the same data as the one it repeats: every
+// figure must be identical, to the bit, to the run that computes each period.
+void expect_identical_run(const RunSummary& repeated, const RunSummary& computed) {
+  ASSERT_TRUE(repeated.ok()) << repeated.message;
+  ASSERT_TRUE(computed.ok()) << computed.message;
+  EXPECT_EQ(repeated.cycles, computed.cycles);
+  EXPECT_EQ(repeated.events, computed.events);
+  EXPECT_EQ(repeated.end_time_s, computed.end_time_s);
+  EXPECT_EQ(repeated.final_state, computed.final_state);
+  const CycleMetrics& a = repeated.last_cycle;
+  const CycleMetrics& b = computed.last_cycle;
+  EXPECT_EQ(a.index, b.index);
+  EXPECT_EQ(a.start_time_s, b.start_time_s);
+  EXPECT_EQ(a.mode, b.mode);
+  EXPECT_EQ(a.events, b.events);
+  ASSERT_EQ(a.intervals.size(), b.intervals.size());
+  for (std::size_t i = 0; i < a.intervals.size(); ++i) {
+    EXPECT_EQ(a.intervals[i].pattern, b.intervals[i].pattern);
+    EXPECT_EQ(a.intervals[i].fraction, b.intervals[i].fraction);
+  }
+  ASSERT_EQ(a.signals.size(), b.signals.size());
+  for (std::size_t j = 0; j < a.signals.size(); ++j) {
+    SCOPED_TRACE(repeated.recorded[j].name);
+    EXPECT_EQ(a.signals[j].average, b.signals[j].average);
+    EXPECT_EQ(a.signals[j].rms, b.signals[j].rms);
+    EXPECT_EQ(a.signals[j].min, b.signals[j].min);
+    EXPECT_EQ(a.signals[j].max, b.signals[j].max);
+  }
+  EXPECT_EQ(a.energy_in_j, b.energy_in_j);
+  EXPECT_EQ(a.dissipated_j, b.dissipated_j);
+  EXPECT_EQ(a.stored_energy_change_j, b.stored_energy_change_j);
+  EXPECT_EQ(a.state_change, b.state_change);
+  ASSERT_EQ(a.element_energy.size(), b.element_energy.size());
+  for (std::size_t k = 0; k < a.element_energy.size(); ++k)
+    EXPECT_EQ(a.element_energy[k].energy_j, b.element_energy[k].energy_j);
+  EXPECT_EQ(repeated.startup.peak_inductor_current_a, computed.startup.peak_inductor_current_a);
+  EXPECT_EQ(repeated.startup.output_peak, computed.startup.output_peak);
+  EXPECT_EQ(repeated.startup.settling_cycle, computed.startup.settling_cycle);
+  EXPECT_EQ(repeated.startup.steady_state_cycle, computed.startup.steady_state_cycle);
 }
 
 double output_average(const RunSummary& summary) {
@@ -240,14 +292,30 @@ Circuit fast_settling_dcm_boost(bool with_load_step) {
 // run must end with every figure the piece engine computes period by period.
 TEST(PeriodReplay, PeriodsThatStartWhereThePeriodBeforeStartedRepeatItExactly) {
   const Circuit circuit = fast_settling_dcm_boost(false);
-  const RunSummary repeated = run(circuit, 3000, true);
-  const RunSummary direct = run(circuit, 3000, false);
-  EXPECT_EQ(direct.repeated_periods, 0);
+  const RunSummary repeated = run_with_repeat(circuit, 3000, true);
+  const RunSummary computed = run_with_repeat(circuit, 3000, false);
+  EXPECT_EQ(computed.repeated_periods, 0);
   // Not vacuous: most of the run lies past the steady state reached to the last bit.
   EXPECT_GE(repeated.repeated_periods, 1000);
+  EXPECT_EQ(repeated.recurrence_periods, 1);
   EXPECT_EQ(repeated.last_cycle.mode, ConductionMode::kDcm);
   EXPECT_GE(repeated.startup.steady_state_cycle, 0);
-  expect_same_run(circuit, repeated, direct);
+  expect_identical_run(repeated, computed);
+  // and the piece engine alone, without replay or repeat, agrees to rounding
+  expect_same_run(circuit, repeated, run(circuit, 3000, false));
+}
+
+// The synchronous buck at light load does not settle to one state: by about period 4 900 its
+// rounding has settled into a cycle of 24 states, which the run then repeats in turn. (The
+// length of the cycle belongs to the rounding, not to the circuit: an engine change may move
+// it. The identity below must hold whatever it is.)
+TEST(PeriodReplay, PeriodsOfACycleOfRoundedStatesRepeatInTurn) {
+  const Circuit circuit = synchronous_buck_light_load();
+  const RunSummary repeated = run_with_repeat(circuit, 10000, true);
+  const RunSummary computed = run_with_repeat(circuit, 10000, false);
+  EXPECT_GE(repeated.repeated_periods, 1000);
+  EXPECT_GE(repeated.recurrence_periods, 2);  // not vacuous: more than one period in turn
+  expect_identical_run(repeated, computed);
 }
 
 // The same boost with a load step at period 2 500: its gates do not repeat (a schedule drives

@@ -56,6 +56,8 @@ void read_run_steady_state(const TableReader& run, const Circuit& circuit, Simul
   o.cache = run.boolean_or("cache", o.cache);
   o.replay_repeating_periods =
       run.boolean_or("replay_repeating_periods", o.replay_repeating_periods);
+  o.repeat_recurring_periods =
+      run.boolean_or("repeat_recurring_periods", o.repeat_recurring_periods);
   o.energy_accounting = run.boolean_or("energy_accounting", o.energy_accounting);
 }
 
@@ -234,6 +236,7 @@ SimulationOptions read_run(const toml::table* table, const std::string& file,
                    "settling_band",
                    "cache",
                    "replay_repeating_periods",
+                   "repeat_recurring_periods",
                    "energy_accounting",
                    "ode_stepper",
                    "ode_relative_tolerance",

@@ -19,6 +19,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdint>
 #include <cstring>
 #include <limits>
 #include <set>
@@ -177,7 +178,6 @@ struct Simulation::Impl {
   Eigen::MatrixXd replay_states;            // start state of each step with a pending extremum
   std::vector<int> replay_signal_inductor;  // per recorded signal: its inductor index, or -1
   // Everything a period's computation reads besides the gates' plan, which periodic gates repeat.
-  // When a period ends as it began, to the bit, every later period repeats it (run_cycle).
   struct PeriodStart {
     Eigen::VectorXd z;
     DevicePattern pattern = 0;
@@ -186,8 +186,19 @@ struct Simulation::Impl {
     int last_switch_off = -1;
     double current_scale = 0.0, voltage_scale = 0.0;
   };
-  PeriodStart period_start;
-  bool repeat_next = false;
+  // A period near the steady state: where it began, and what it gave (see recurrence_found).
+  struct PeriodRecord {
+    long index = -1;
+    std::uint64_t hash = 0;  // of start.z and start.pattern
+    PeriodStart start;
+    CycleMetrics metrics;
+    long events = 0;
+  };
+  std::vector<PeriodRecord> recent_periods;  // ring: period k in slot k % kRecurrenceDepth
+  long recorded_run = 0;                     // consecutive periods in the ring, up to the last
+  PeriodStart period_start;                  // of the period being computed
+  // Once a cycle closed: its first period and its length; every later period repeats one of it.
+  long cycle_first = -1, cycle_length = 0;
 
   Impl(const Circuit& circuit, SimulationOptions opts) : model(circuit), options(std::move(opts)) {
     options.validate();
@@ -1288,7 +1299,9 @@ struct Simulation::Impl {
     steps_before.clear();
     replay_next = false;
     replay_builds = 0;
-    repeat_next = false;
+    recorded_run = 0;
+    cycle_first = -1;
+    cycle_length = 0;
   }
 
   void begin_cycle() {
@@ -1320,7 +1333,7 @@ struct Simulation::Impl {
 
   bool run_cycle(long k) {
     const long double origin = static_cast<long double>(k) * period_s;
-    if (repeat_next) {
+    if (cycle_length > 0) {
       repeat_cycle(k, origin);
     } else if (!compute_cycle(k, origin)) {
       return false;
@@ -1352,11 +1365,23 @@ struct Simulation::Impl {
     }
     update_scales();
     finish_cycle(k, start, cycle_start_state, cycle_metrics);
-    repeat_next = replay_allowed(k + 1) && ends_as_it_began();
+    keep_period_record(k);
     return true;
   }
 
-  // ---- repeat of a period that ends as it began ----------------------------------------------
+  // ---- repeat of periods whose states recur -------------------------------------------------
+  //
+  // With constant sources and periodic gates a period's results depend only on where it starts
+  // (PeriodStart). Near the steady state the start of each period is kept, with its results, for
+  // the last kRecurrenceDepth periods. A period that ends, to the bit, where a kept period began
+  // closes a cycle: every later period poses the same problem as a period of the cycle, and its
+  // results are that period's. A steady state reached to the last bit is a cycle of one period;
+  // rounding can also settle into a cycle of a few.
+
+  static constexpr std::size_t kRecurrenceDepth = 32;
+  // Periods are kept once the state changes by less than this (relative to its scale) per
+  // period: rounding cycles live far below it, and above it keeping them would only cost time.
+  static constexpr double kRecurrenceWatch = 1e-12;
 
   void capture_period_start() {
     PeriodStart& s = period_start;
@@ -1369,24 +1394,79 @@ struct Simulation::Impl {
     s.voltage_scale = voltage_scale;
   }
 
-  // The state compares bit by bit (not by value: -0 and +0 differ), so that the next period,
-  // whose gates and sources repeat this one's (replay_allowed), computes exactly what this one
-  // computed.
-  bool ends_as_it_began() const {
-    const PeriodStart& s = period_start;
+  // FNV-1a over the words of z and the pattern (the lookup key; starts_here() decides).
+  std::uint64_t state_hash(const Eigen::VectorXd& state, DevicePattern p) const {
+    std::uint64_t h = 1469598103934665603ULL;
+    for (int i = 0; i < n_z; ++i) {
+      std::uint64_t word;
+      std::memcpy(&word, state.data() + i, sizeof word);
+      h = (h ^ word) * 1099511628211ULL;
+    }
+    return (h ^ p) * 1099511628211ULL;
+  }
+
+  // The state compares bit by bit (not by value: -0 and +0 differ), so that the repeated period
+  // computes exactly what the kept one computed.
+  bool starts_here(const PeriodStart& s) const {
     return s.pattern == pattern && s.data == current && s.in_idle == in_idle &&
            s.last_switch_off == last_switch_off && s.current_scale == current_scale &&
            s.voltage_scale == voltage_scale &&
            std::memcmp(s.z.data(), z.data(), sizeof(double) * static_cast<std::size_t>(n_z)) == 0;
   }
 
-  // The period before ended as it began, and its gates and sources repeat: this period poses
-  // the same problem from the same state, and its results are that period's. The accumulators
-  // and metrics still hold them; only the index, the time and the event count move on.
+  // After computed period k: keep it, and look for a kept period that began where k ended.
+  // Whether the periods from k on pose the same problem whenever they start in the same state.
+  // The ODE path is left out: its steps depend on the absolute time.
+  bool repeat_allowed(long k) const {
+    return options.repeat_recurring_periods && !observer && !nonlinear && inputs_constant &&
+           gates->periodic_at(k);
+  }
+
+  void keep_period_record(long k) {
+    if (!repeat_allowed(k + 1) || cycle_metrics.state_change >= kRecurrenceWatch) {
+      recorded_run = 0;
+      return;
+    }
+    if (recent_periods.size() < kRecurrenceDepth) recent_periods.resize(kRecurrenceDepth);
+    PeriodRecord& r = recent_periods[static_cast<std::size_t>(k) % kRecurrenceDepth];
+    r.index = k;
+    r.start = period_start;
+    r.hash = state_hash(period_start.z, period_start.pattern);
+    r.metrics = cycle_metrics;
+    r.events = cycle.events;
+    recorded_run = std::min<long>(recorded_run + 1, kRecurrenceDepth);
+    const std::uint64_t end_hash = state_hash(z, pattern);
+    for (long j = k; j > k - recorded_run; --j) {
+      const PeriodRecord& q = recent_periods[static_cast<std::size_t>(j) % kRecurrenceDepth];
+      if (q.hash == end_hash && starts_here(q.start)) {
+        cycle_first = j;
+        cycle_length = k - j + 1;
+        summary.recurrence_periods = cycle_length;
+        return;
+      }
+    }
+  }
+
+  // Period k repeats the period of the cycle at the same place in it; the state moves on to
+  // the start of the next one (the cycle's first after its last).
   void repeat_cycle(long k, long double origin) {
-    summary.events += cycle.events;
+    const auto slot = [this](long period) {
+      return static_cast<std::size_t>(cycle_first + (period - cycle_first) % cycle_length) %
+             kRecurrenceDepth;
+    };
+    const PeriodRecord& r = recent_periods[slot(k)];
+    summary.events += r.events;
     ++summary.repeated_periods;
     t = static_cast<double>(origin + period_s);
+    if (cycle_length > 1) {
+      cycle_metrics = r.metrics;  // the vectors keep their sizes: no allocation
+      const PeriodStart& next = recent_periods[slot(k + 1)].start;
+      z = next.z;
+      pattern = next.pattern;
+      current = next.data;
+      in_idle = next.in_idle;
+      last_switch_off = next.last_switch_off;
+    }
     cycle_metrics.index = k;
     cycle_metrics.start_time_s = static_cast<double>(origin);
   }

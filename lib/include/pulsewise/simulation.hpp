@@ -70,6 +70,11 @@ struct SimulationOptions {
   // `cache`; not used while an observer is attached (observers see every piece). Off only to
   // check it: results agree with the piece engine to rounding.
   bool replay_repeating_periods = true;
+  // Once a period ends, to the bit, in the state a recent period began in (a steady state reached
+  // to the last bit, or a short cycle of rounding), every later period takes the results of the
+  // period it repeats instead of being computed again. Needs constant sources and periodic
+  // gates; not used while an observer is attached. Off only to check it: results are identical.
+  bool repeat_recurring_periods = true;
   // Per-cycle energy from sources, change in stored energy and energy dissipated.
   bool energy_accounting = true;
   // ODE path (circuits with saturating inductors or constant-power loads): error tolerances of
@@ -156,9 +161,10 @@ struct RunSummary {
   std::size_t configurations_built = 0;
   std::size_t cache_hits = 0;
   long replayed_periods = 0;  // periods computed by SimulationOptions::replay_repeating_periods
-  // Periods that began, to the bit, in the state the period before began in, and so repeat it
-  // (also replay_repeating_periods): a steady state reached to the last bit.
+  // SimulationOptions::repeat_recurring_periods: the periods taken from earlier ones, and the
+  // length of the cycle of states they repeat (1 for a steady state to the last bit; 0: none).
   long repeated_periods = 0;
+  long recurrence_periods = 0;
   double wall_time_s = 0.0;
   double end_time_s = 0.0;
   std::vector<SignalInfo> recorded;
