@@ -185,6 +185,10 @@ struct Simulation::Impl {
     bool in_idle = false;
     int last_switch_off = -1;
     double current_scale = 0.0, voltage_scale = 0.0;
+    // The method that computes the period: the replay (with the operators of build number
+    // replay_builds) or the piece engine.
+    bool replayed = false;
+    int replay_builds = 0;
   };
   // A period near the steady state: where it began, and what it gave (see recurrence_found).
   struct PeriodRecord {
@@ -1392,6 +1396,8 @@ struct Simulation::Impl {
     s.last_switch_off = last_switch_off;
     s.current_scale = current_scale;
     s.voltage_scale = voltage_scale;
+    s.replayed = replay_next;
+    s.replay_builds = replay_builds;
   }
 
   // FNV-1a over the words of z and the pattern (the lookup key; starts_here() decides).
@@ -1405,12 +1411,13 @@ struct Simulation::Impl {
     return (h ^ p) * 1099511628211ULL;
   }
 
-  // The state compares bit by bit (not by value: -0 and +0 differ), so that the repeated period
-  // computes exactly what the kept one computed.
+  // The state compares bit by bit (not by value: -0 and +0 differ), and the method must be the
+  // same, so that the repeated period computes exactly what the kept one computed.
   bool starts_here(const PeriodStart& s) const {
     return s.pattern == pattern && s.data == current && s.in_idle == in_idle &&
            s.last_switch_off == last_switch_off && s.current_scale == current_scale &&
-           s.voltage_scale == voltage_scale &&
+           s.voltage_scale == voltage_scale && s.replayed == replay_next &&
+           s.replay_builds == replay_builds &&
            std::memcmp(s.z.data(), z.data(), sizeof(double) * static_cast<std::size_t>(n_z)) == 0;
   }
 
@@ -1466,6 +1473,7 @@ struct Simulation::Impl {
       current = next.data;
       in_idle = next.in_idle;
       last_switch_off = next.last_switch_off;
+      replay_next = next.replayed;
     }
     cycle_metrics.index = k;
     cycle_metrics.start_time_s = static_cast<double>(origin);
