@@ -16,6 +16,7 @@ class ObserverFanOut : public Observer {
   void add(Observer* observer) {
     if (observer != nullptr) observers_.push_back(observer);
   }
+  bool empty() const { return observers_.empty(); }
   void on_start(const RunInfo& info) override;
   void on_piece(const PieceView& piece) override;
   void on_event(const EventRecord& event) override;

@@ -135,7 +135,9 @@ int run_command(const RunCommandOptions& options) {
   observers.add(recorder.get());
   if (!options.quiet && ProgressLine::is_terminal(stderr)) observers.add(&progress);
 
-  RunSummary summary = simulation.run(&observers);
+  // No observer at all when nothing listens: the engine then may replay and repeat periods
+  // (an observer must see every piece computed).
+  RunSummary summary = simulation.run(observers.empty() ? nullptr : &observers);
   if (recorder) {
     try {
       recorder->close();

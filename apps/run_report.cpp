@@ -82,6 +82,14 @@ void print_startup(const RunReport& r) {
   if (st.steady_state_cycle >= 0) {
     fmt::print("  steady state detected at period {}\n", st.steady_state_cycle);
   }
+  const RunSummary& s = r.summary;
+  if (s.repeated_periods > 0) {
+    fmt::print(
+        "  states recur to the last bit from period {} (a cycle of {} period{}): the {} "
+        "periods after it repeat it\n",
+        s.cycles - s.repeated_periods, s.recurrence_periods, s.recurrence_periods == 1 ? "" : "s",
+        s.repeated_periods);
+  }
 }
 
 void print_signals(const RunReport& r) {
@@ -229,6 +237,9 @@ nlohmann::json run_report_json(const RunReport& r) {
       {"events", s.events},
       {"configurations_built", s.configurations_built},
       {"cache_hits", s.cache_hits},
+      {"replayed_periods", s.replayed_periods},
+      {"repeated_periods", s.repeated_periods},
+      {"recurrence_periods", s.recurrence_periods},
       {"wall_time_s", s.wall_time_s},
       {"end_time_s", s.end_time_s},
       {"switching_period_s", r.switching_period_s},

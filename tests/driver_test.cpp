@@ -297,6 +297,44 @@ TEST(DriverRun, JsonSummaryParsesAndFollowsTheDocumentedSchema) {
   EXPECT_TRUE(fs::exists(trace));
 }
 
+// The engine replays and repeats periods only when no observer listens. The driver attaches
+// none without a trace file (and off a terminal), so such a run takes its recurring periods
+// from the earlier ones, while a traced run computes every period for the trace. Both must
+// report the same last period (the repeat is exact; docs/method.md, section 5).
+TEST(DriverRun, AnUntracedRunRepeatsItsRecurringPeriodsAndAgreesWithTheTracedRun) {
+  const fs::path dir = scratch();
+  const std::string text =
+      replace_line(replace_line(boost_file(), 22, "capacitance = \"10 uF\""), 32, "periods = 3000");
+  const fs::path file = write_file(dir, "boost.toml", text);
+  const Outcome traced =
+      run_driver({"run", file.string(), "-o", (dir / "boost.h5").string(), "--json"}, dir);
+  const Outcome untraced = run_driver({"run", file.string(), "--no-trace", "--json"}, dir);
+  ASSERT_EQ(traced.code, 0) << traced.err;
+  ASSERT_EQ(untraced.code, 0) << untraced.err;
+  const nlohmann::json a = nlohmann::json::parse(traced.out);
+  const nlohmann::json b = nlohmann::json::parse(untraced.out);
+  EXPECT_EQ(a.at("repeated_periods"), 0);
+  EXPECT_EQ(a.at("recurrence_periods"), 0);
+  const long repeated = b.at("repeated_periods").get<long>();
+  EXPECT_GE(repeated, 500);  // the states recur to the bit well before period 3 000
+  EXPECT_GE(b.at("recurrence_periods").get<long>(), 1);
+  EXPECT_EQ(a.at("cycles"), b.at("cycles"));
+  EXPECT_EQ(a.at("events"), b.at("events"));
+  const auto& sa = a.at("last_cycle").at("signals");
+  const auto& sb = b.at("last_cycle").at("signals");
+  ASSERT_EQ(sa.size(), sb.size());
+  for (std::size_t k = 0; k < sa.size(); ++k)
+    for (const char* key : {"average", "rms", "min", "max"}) {
+      const double x = sa[k].at(key).get<double>(), y = sb[k].at(key).get<double>();
+      EXPECT_NEAR(x, y, 1e-12 * std::max(std::abs(x), 1.0)) << sa[k].at("name") << " " << key;
+    }
+  const std::string text_out = run_driver({"run", file.string(), "--no-trace"}, dir).out;
+  EXPECT_NE(
+      text_out.find("states recur to the last bit from period " + std::to_string(3000 - repeated)),
+      std::string::npos)
+      << text_out;
+}
+
 // Two independent routes to the same powers: the engine integrates v * i of every element over
 // the period (power.load_w, power.losses_w), while the exact per-period RMS of a recorded signal
 // gives the same figure through Joule's law, P = V_rms^2 / R for the load across out.v and
