@@ -2,6 +2,7 @@
 
 #include <fmt/core.h>
 #include <unistd.h>
+#include <algorithm>
 
 #include "pulsewise/simulation.hpp"
 
@@ -21,6 +22,11 @@ void ObserverFanOut::on_cycle(const CycleMetrics& cycle) {
 }
 void ObserverFanOut::on_finish(const RunSummary& summary) {
   for (Observer* o : observers_) o->on_finish(summary);
+}
+
+bool ObserverFanOut::wants_pieces_and_events() const {
+  return std::any_of(observers_.begin(), observers_.end(),
+                     [](const Observer* o) { return o->wants_pieces_and_events(); });
 }
 
 bool ProgressLine::is_terminal(std::FILE* stream) { return isatty(fileno(stream)) == 1; }

@@ -17,6 +17,7 @@ class ObserverFanOut : public Observer {
     if (observer != nullptr) observers_.push_back(observer);
   }
   bool empty() const { return observers_.empty(); }
+  bool wants_pieces_and_events() const override;
   void on_start(const RunInfo& info) override;
   void on_piece(const PieceView& piece) override;
   void on_event(const EventRecord& event) override;
@@ -36,6 +37,7 @@ class ProgressLine : public Observer {
   void on_start(const RunInfo& info) override;
   void on_cycle(const CycleMetrics& cycle) override;
   void on_finish(const RunSummary& summary) override;
+  bool wants_pieces_and_events() const override { return false; }
 
   // True when the stream is a terminal: the driver shows progress only then.
   static bool is_terminal(std::FILE* stream);

@@ -135,8 +135,8 @@ int run_command(const RunCommandOptions& options) {
   observers.add(recorder.get());
   if (!options.quiet && ProgressLine::is_terminal(stderr)) observers.add(&progress);
 
-  // No observer at all when nothing listens: the engine then may replay and repeat periods
-  // (an observer must see every piece computed).
+  // No observer at all when nothing listens. The progress line takes periods only, so it does not
+  // keep the engine from replaying and repeating periods; the trace recorder takes every piece.
   RunSummary summary = simulation.run(observers.empty() ? nullptr : &observers);
   if (recorder) {
     try {

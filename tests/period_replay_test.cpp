@@ -333,8 +333,39 @@ TEST(PeriodReplay, NoPeriodRepeatsWhileAGateScheduleLiesAhead) {
   EXPECT_LT(output_average(replayed), 0.9 * output_average(before_step));
 }
 
-// An observer sees every period, so with one attached nothing is repeated or replayed.
-TEST(PeriodReplay, AnObserverSeesEveryPeriodComputed) {
+// A cycle-only observer (a progress display) does not stop the replay or the repeat: it still
+// receives every period, in order, with the metrics the run ends with, and nothing else.
+TEST(PeriodReplay, AnObserverOfPeriodsOnlyReceivesEveryPeriodWhilePeriodsRepeat) {
+  struct PeriodObserver : Observer {
+    long cycles = 0, pieces = 0, events = 0;
+    bool in_order = true;
+    CycleMetrics last;
+    void on_piece(const PieceView&) override { ++pieces; }
+    void on_event(const EventRecord&) override { ++events; }
+    void on_cycle(const CycleMetrics& m) override {
+      in_order = in_order && m.index == cycles;
+      ++cycles;
+      last = m;
+    }
+    bool wants_pieces_and_events() const override { return false; }
+  } observer;
+  SimulationOptions options;
+  options.periods = 3000;
+  Simulation sim(fast_settling_dcm_boost(false), options);
+  const RunSummary summary = sim.run(&observer);
+  EXPECT_GE(summary.repeated_periods, 1000);
+  EXPECT_EQ(observer.cycles, 3000);
+  EXPECT_TRUE(observer.in_order);
+  EXPECT_EQ(observer.pieces, 0);
+  EXPECT_EQ(observer.events, 0);
+  EXPECT_EQ(observer.last.start_time_s, summary.last_cycle.start_time_s);
+  ASSERT_EQ(observer.last.signals.size(), summary.last_cycle.signals.size());
+  for (std::size_t j = 0; j < observer.last.signals.size(); ++j)
+    EXPECT_EQ(observer.last.signals[j].average, summary.last_cycle.signals[j].average);
+}
+
+// An observer of every piece sees every period computed: nothing is repeated or replayed.
+TEST(PeriodReplay, AnObserverOfPiecesSeesEveryPeriodComputed) {
   struct CountingObserver : Observer {
     long cycles = 0;
     bool in_order = true;

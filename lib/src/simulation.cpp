@@ -131,6 +131,7 @@ struct Simulation::Impl {
 
   // Run state.
   Observer* observer = nullptr;
+  Observer* piece_observer = nullptr;  // the observer, when it takes pieces and events
   double t = 0.0;
   Eigen::VectorXd z;
   DevicePattern pattern = 0;
@@ -496,14 +497,14 @@ struct Simulation::Impl {
   void log_event(EventKind kind, int element) {
     ++summary.events;
     ++cycle.events;
-    if (!observer) return;
+    if (!piece_observer) return;
     EventRecord record;
     record.time_s = t;
     record.kind = kind;
     record.element = element;
     if (element >= 0) record.element_name = model.circuit().elements()[element].name;
     record.pattern_after = pattern;
-    observer->on_event(record);
+    piece_observer->on_event(record);
   }
 
   // A floating group whose cutset carries current needs a path: a diode of the group that the
@@ -760,7 +761,7 @@ struct Simulation::Impl {
     accumulate_piece(h);
     track_inductor_peaks();
     record_interval(h);
-    if (observer) {
+    if (piece_observer) {
       piece.project(current->recorded, signal_coefficients);
       PolynomialPiece view;
       view.t0 = t;
@@ -768,7 +769,7 @@ struct Simulation::Impl {
       view.pat = pattern;
       view.order = piece.order();
       view.coefficients = &signal_coefficients;
-      observer->on_piece(view);
+      piece_observer->on_piece(view);
     }
   }
 
@@ -1054,13 +1055,13 @@ struct Simulation::Impl {
       const double end = which >= 0 ? t_event : b;
       accumulate_dense(dense, a, end);
       record_interval(end - a);
-      if (observer) {
+      if (piece_observer) {
         DensePiece view;
         view.impl = this;
         view.stepper = &dense;
         view.t0 = a;
         view.t1 = end;
-        observer->on_piece(view);
+        piece_observer->on_piece(view);
       }
       OdeState z_end(n_z);
       dense.calc_state(end, z_end);
@@ -1267,6 +1268,7 @@ struct Simulation::Impl {
 
   void start(Observer* obs) {
     observer = obs;
+    piece_observer = obs && obs->wants_pieces_and_events() ? obs : nullptr;
     summary = RunSummary{};
     for (int index : recorded) summary.recorded.push_back(model.signals()[index]);
     for (int s : inductor_states)
@@ -1425,7 +1427,7 @@ struct Simulation::Impl {
   // Whether the periods from k on pose the same problem whenever they start in the same state.
   // The ODE path is left out: its steps depend on the absolute time.
   bool repeat_allowed(long k) const {
-    return options.repeat_recurring_periods && !observer && !nonlinear && inputs_constant &&
+    return options.repeat_recurring_periods && !piece_observer && !nonlinear && inputs_constant &&
            gates->periodic_at(k);
   }
 
@@ -1484,7 +1486,7 @@ struct Simulation::Impl {
   // Whether period k can be recorded for a replay: its edges and sources repeat in every later
   // period, and nothing needs the pieces themselves.
   bool replay_allowed(long k) const {
-    return options.replay_repeating_periods && options.cache && !observer && !nonlinear &&
+    return options.replay_repeating_periods && options.cache && !piece_observer && !nonlinear &&
            inputs_constant && gates->periodic_at(k);
   }
 

@@ -64,6 +64,11 @@ class Observer {
   virtual void on_event(const EventRecord& /*event*/) {}
   virtual void on_cycle(const CycleMetrics& /*cycle*/) {}
   virtual void on_finish(const RunSummary& /*summary*/) {}
+  // False for an observer that needs only the per-period metrics (a progress display, a
+  // convergence monitor): it then receives no on_piece and no on_event, and the engine may
+  // replay and repeat periods (SimulationOptions::replay_repeating_periods and
+  // repeat_recurring_periods), which an observer of every piece rules out.
+  virtual bool wants_pieces_and_events() const { return true; }
 };
 
 }  // namespace pulsewise

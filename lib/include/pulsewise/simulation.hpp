@@ -67,13 +67,15 @@ struct SimulationOptions {
   // Replay a switching period that repeats exactly (constant sources, periodic gates, no state
   // event: CCM in steady state) from operators built once for its sequence of pieces, checked
   // piece by piece and replaced by the piece engine where the period no longer repeats. Needs
-  // `cache`; not used while an observer is attached (observers see every piece). Off only to
-  // check it: results agree with the piece engine to rounding.
+  // `cache`; not used while an observer that wants every piece is attached
+  // (Observer::wants_pieces_and_events). Off only to check it: results agree with the piece
+  // engine to rounding.
   bool replay_repeating_periods = true;
   // Once a period ends, to the bit, in the state a recent period began in (a steady state reached
   // to the last bit, or a short cycle of rounding), every later period takes the results of the
   // period it repeats instead of being computed again. Needs constant sources and periodic
-  // gates; not used while an observer is attached. Off only to check it: results are identical.
+  // gates; not used while an observer that wants every piece is attached. Off only to check it:
+  // results are identical.
   bool repeat_recurring_periods = true;
   // Per-cycle energy from sources, change in stored energy and energy dissipated.
   bool energy_accounting = true;
