@@ -3,6 +3,9 @@
 //
 //   pulsewise/<case>         load bench/data/<case>.toml, build the Simulation, run it (per-cycle
 //                            metrics on, no observer, so no recording)
+//   pulsewise_computed/<case> the same with repeat_recurring_periods off: every period is
+//                            computed (or replayed), none is taken from an earlier one, so the
+//                            speed is that of the periods of a start-up or of a changing load
 //   baseline_a_rk4/<case>    fixed-step RK4 at the step that meets 1e-6 relative (found first by
 //                            halving the step; the search is printed on stderr)
 //   baseline_b_dopri5/<case> Boost.Odeint dopri5, dense output, tolerances 1e-9, bisected events
@@ -96,15 +99,18 @@ void set_common_counters(benchmark::State& state, double average, double error) 
   state.counters["final_average_v"] = average;
 }
 
-template <template <class> class Case>
+template <template <class> class Case, bool kRepeat>
 void bm_pulsewise(benchmark::State& state) {
   const std::string path = case_file(Case<double>::kName);
   if (!skip_reference()) reference_average<Case>();
   double average = 0.0;
+  long repeated = 0;
   for (auto _ : state) {
     const pulsewise::CircuitFile file = pulsewise::load_circuit_file(path);
     if (file.simulation.periods != kPeriods) throw std::runtime_error(path + ": periods changed");
-    pulsewise::Simulation simulation(file.circuit, file.simulation);
+    pulsewise::SimulationOptions options = file.simulation;
+    options.repeat_recurring_periods = kRepeat;
+    pulsewise::Simulation simulation(file.circuit, options);
     const pulsewise::RunSummary summary = simulation.run();
     if (!summary.ok()) {
       state.SkipWithError(summary.message.c_str());
@@ -114,8 +120,10 @@ void bm_pulsewise(benchmark::State& state) {
     for (std::size_t k = 0; k < summary.recorded.size(); ++k)
       if (summary.recorded[k].name == file.simulation.output_signal) output = static_cast<int>(k);
     average = summary.last_cycle.signals.at(output).average;
+    repeated = summary.repeated_periods;
   }
   set_common_counters(state, average, relative_error<Case>(average));
+  state.counters["repeated_periods"] = static_cast<double>(repeated);
 }
 
 template <template <class> class Case>
@@ -152,7 +160,9 @@ template <template <class> class Case>
 void register_case() {
   const std::string name(Case<double>::kName);
   for (auto* b :
-       {benchmark::RegisterBenchmark(("pulsewise/" + name).c_str(), bm_pulsewise<Case>),
+       {benchmark::RegisterBenchmark(("pulsewise/" + name).c_str(), bm_pulsewise<Case, true>),
+        benchmark::RegisterBenchmark(("pulsewise_computed/" + name).c_str(),
+                                     bm_pulsewise<Case, false>),
         benchmark::RegisterBenchmark(("baseline_a_rk4/" + name).c_str(), bm_baseline_a<Case>),
         benchmark::RegisterBenchmark(("baseline_b_dopri5/" + name).c_str(), bm_baseline_b<Case>)})
     b->Unit(benchmark::kMillisecond)->MinTime(0.2);
