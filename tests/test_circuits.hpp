@@ -18,14 +18,16 @@ inline PwmModulator pwm(double frequency_hz, double duty, std::string name = "pw
 
 // 12 V boost at 200 kHz, D = 0.3 into 60 ohm: K = 2L/(R T) = 0.0667 below
 // Kcrit = D (1-D)^2 = 0.147, so DCM (Erickson & Maksimovic, Fundamentals of Power Electronics,
-// 2nd ed., ch. 5). Devices 10 mOhm on, open off; ideal inductor and capacitor.
-inline Circuit dcm_boost(PwmModulator modulator = pwm(200e3, 0.3)) {
+// 2nd ed., ch. 5). Devices 10 mOhm on, open off; ideal inductor and capacitor. The ratio does
+// not depend on the output capacitance, which sets how fast the output settles.
+inline Circuit dcm_boost(PwmModulator modulator = pwm(200e3, 0.3),
+                         double output_capacitance_f = 47e-6) {
   Circuit c;
   c.add_voltage_source("Vin", "in", "0", Waveform::constant(12.0))
       .add_inductor("L1", "in", "sw", 10e-6)
       .add_switch("S1", "sw", "0", "pwm", SwitchOptions{10e-3, kOpen})
       .add_diode("D1", "sw", "out", DiodeOptions{10e-3, 0.0, kOpen})
-      .add_capacitor("C1", "out", "0", 47e-6)
+      .add_capacitor("C1", "out", "0", output_capacitance_f)
       .add_resistor("Rload", "out", "0", 60.0)
       .add_modulator(std::move(modulator));
   return c;
