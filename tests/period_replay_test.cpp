@@ -324,26 +324,35 @@ TEST(PeriodReplay, NoPeriodRepeatsWhileAGateScheduleLiesAhead) {
   EXPECT_LT(output_average(replayed), 0.9 * output_average(before_step));
 }
 
+// Counts what a run hands to its observer and keeps the last period's metrics; `wants_pieces`
+// is its answer to Observer::wants_pieces_and_events.
+struct CountingObserver : Observer {
+  explicit CountingObserver(bool wants_pieces) : wants_pieces(wants_pieces) {}
+  bool wants_pieces;
+  long cycles = 0, pieces = 0, events = 0;
+  bool in_order = true;  // on_cycle came with indices 0, 1, 2, ...
+  CycleMetrics last;
+  void on_piece(const PieceView&) override { ++pieces; }
+  void on_event(const EventRecord&) override { ++events; }
+  void on_cycle(const CycleMetrics& m) override {
+    in_order = in_order && m.index == cycles;
+    ++cycles;
+    last = m;
+  }
+  bool wants_pieces_and_events() const override { return wants_pieces; }
+};
+
+RunSummary run_observed(Observer& observer, long periods) {
+  SimulationOptions options;
+  options.periods = periods;
+  return Simulation(fast_settling_dcm_boost(false), options).run(&observer);
+}
+
 // A cycle-only observer (a progress display) does not stop the replay or the repeat: it still
 // receives every period, in order, with the metrics the run ends with, and nothing else.
 TEST(PeriodReplay, AnObserverOfPeriodsOnlyReceivesEveryPeriodWhilePeriodsRepeat) {
-  struct PeriodObserver : Observer {
-    long cycles = 0, pieces = 0, events = 0;
-    bool in_order = true;
-    CycleMetrics last;
-    void on_piece(const PieceView&) override { ++pieces; }
-    void on_event(const EventRecord&) override { ++events; }
-    void on_cycle(const CycleMetrics& m) override {
-      in_order = in_order && m.index == cycles;
-      ++cycles;
-      last = m;
-    }
-    bool wants_pieces_and_events() const override { return false; }
-  } observer;
-  SimulationOptions options;
-  options.periods = 3000;
-  Simulation sim(fast_settling_dcm_boost(false), options);
-  const RunSummary summary = sim.run(&observer);
+  CountingObserver observer(false);
+  const RunSummary summary = run_observed(observer, 3000);
   EXPECT_GE(summary.repeated_periods, 1000);
   EXPECT_EQ(observer.cycles, 3000);
   EXPECT_TRUE(observer.in_order);
@@ -357,18 +366,8 @@ TEST(PeriodReplay, AnObserverOfPeriodsOnlyReceivesEveryPeriodWhilePeriodsRepeat)
 
 // An observer of every piece sees every period computed: nothing is repeated or replayed.
 TEST(PeriodReplay, AnObserverOfPiecesSeesEveryPeriodComputed) {
-  struct CountingObserver : Observer {
-    long cycles = 0;
-    bool in_order = true;
-    void on_cycle(const CycleMetrics& m) override {
-      in_order = in_order && m.index == cycles;
-      ++cycles;
-    }
-  } observer;
-  SimulationOptions options;
-  options.periods = 2000;
-  Simulation sim(fast_settling_dcm_boost(false), options);
-  const RunSummary summary = sim.run(&observer);
+  CountingObserver observer(true);
+  const RunSummary summary = run_observed(observer, 2000);
   EXPECT_EQ(observer.cycles, 2000);
   EXPECT_TRUE(observer.in_order);
   EXPECT_EQ(summary.repeated_periods, 0);
