@@ -24,6 +24,7 @@
 #include <string>
 
 #include "cases.hpp"
+#include "detail/polynomial.hpp"  // the engine's event and extremum searches
 #include "pulsewise/circuit_file.hpp"
 #include "pulsewise/simulation.hpp"
 #include "reference.hpp"
@@ -108,43 +109,6 @@ struct Piece {
   return false;
 }
 
-// p(s) and p'(s) by Horner's rule.
-[[gnu::always_inline]] inline void value_and_slope(const double* a, int order, double s,
-                                                   double& value, double& slope) {
-  value = a[order];
-  slope = 0.0;
-  for (int k = order - 1; k >= 0; --k) {
-    slope = slope * s + value;
-    value = value * s + a[k];
-  }
-}
-
-// First root of a on [0, 1] where a(0) > 0 >= a(1), by Newton's method kept inside its bracket
-// (bisection where a step leaves it); -1 when a(1) > 0.
-[[gnu::always_inline]] inline double first_root(const double* a, int order, double s_tolerance) {
-  double end = 0.0;
-  for (int k = 0; k <= order; ++k) end += a[k];
-  if (end > 0.0) return -1.0;
-  double lo = 0.0, hi = 1.0, f_lo = a[0];
-  double s = a[0] / (a[0] - end);
-  for (int iter = 0; iter < 100; ++iter) {
-    double f = 0.0, slope = 0.0;
-    value_and_slope(a, order, s, f, slope);
-    if (f == 0.0) return s;
-    if ((f < 0) == (f_lo < 0)) {
-      lo = s;
-      f_lo = f;
-    } else {
-      hi = s;
-    }
-    double next = slope != 0.0 ? s - f / slope : 0.5 * (lo + hi);
-    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
-    if (std::abs(next - s) <= s_tolerance) return next;
-    s = next;
-  }
-  return s;
-}
-
 // Restrict the piece to [0, s_end], renormalised to [0, 1], and drop the tail the shorter piece
 // no longer needs (the stopping test of expand, from the top down).
 [[gnu::always_inline]] inline void truncate(Piece& p, double s_end) {
@@ -204,17 +168,12 @@ struct PeriodSums {
   double energy_in = 0.0, dissipated = 0.0;
 };
 
-[[gnu::noinline]] double interior_extremum(const Piece& p, int j) {
-  std::array<double, kMaxOrder + 1> slope{}, a{};
-  for (int k = 0; k < p.order; ++k) slope[k] = (k + 1) * p.terms[k + 1][j];
+// The engine's search (poly::interior_extremum) on the entry's polynomial. Kept out of line:
+// inlined, it brought the period loop back to the slow speed (see the note at the top).
+[[gnu::noinline]] double interior_extremum(const Piece& p, int j, double d0, double d1) {
+  std::array<double, kMaxOrder + 1> a{};
   for (int k = 0; k <= p.order; ++k) a[k] = p.terms[k][j];
-  // The slope runs from positive to negative at a maximum; flip it for a minimum.
-  if (slope[0] < 0)
-    for (int k = 0; k < p.order; ++k) slope[k] = -slope[k];
-  const double s = first_root(slope.data(), p.order - 1, 1e-9);
-  double v = 0.0, unused = 0.0;
-  value_and_slope(a.data(), p.order, s < 0 ? 1.0 : s, v, unused);
-  return v;
+  return pulsewise::detail::poly::interior_extremum(a.data(), p.order, d0, d1, 1e-9);
 }
 
 [[gnu::always_inline]] inline void accumulate(const Piece& p, const Moments& m,
@@ -227,7 +186,7 @@ struct PeriodSums {
     double lo = std::min(p.terms[0][j], m.end[j]), hi = std::max(p.terms[0][j], m.end[j]);
     const double d0 = p.terms[1][j], d1 = m.end_slope[j];
     if ((d0 < 0) != (d1 < 0) && d0 != 0 && d1 != 0) {
-      const double v = interior_extremum(p, j);
+      const double v = interior_extremum(p, j, d0, d1);
       lo = std::min(lo, v);
       hi = std::max(hi, v);
     }
@@ -276,7 +235,8 @@ ProbeResult run_probe(const pwbench::DcmBoost<double>& b, long periods) {
       std::array<double, kMaxOrder + 1> current{};
       for (int q = 0; q <= p.order; ++q) current[q] = p.terms[q][0];
       const double full = p.h;
-      const double s = first_root(current.data(), p.order, time_resolution / full);
+      const double s = pulsewise::detail::poly::first_downcrossing(current.data(), p.order, 0.0,
+                                                                   time_resolution / full);
       if (s >= 0.0) truncate(p, s);
       m = moments(p);
       accumulate(p, m, b.rd, b.vin, b.r, sums);
