@@ -30,6 +30,7 @@
 #include "detail/engine.hpp"
 #include "detail/nonlinear.hpp"
 #include "detail/period_replay.hpp"
+#include "detail/piece_kernel.hpp"
 #include "detail/polynomial.hpp"
 #include "detail/stiff_integrator.hpp"
 
@@ -137,6 +138,7 @@ struct Simulation::Impl {
   DevicePattern pattern = 0;
   const PatternData* current = nullptr;
   detail::TaylorPiece piece;
+  detail::KernelLayout kernel;  // the fixed-size piece kernel's view of the run
   Eigen::MatrixXd signal_coefficients;
   CycleAccumulator cycle;
   RunSummary summary;
@@ -219,7 +221,26 @@ struct Simulation::Impl {
     set_up_recorded();
     set_up_energy();
     set_up_nonlinear();
+    set_up_kernel();
     x0 = model.initial_state();
+  }
+
+  void set_up_kernel() {
+    kernel.size = n_z;
+    kernel.signals = static_cast<int>(recorded.size());
+    kernel.use_gram = use_gram();
+    kernel.energy_accounting = options.energy_accounting;
+    kernel.diode_bits = diode_bits;
+    kernel.inductor_states = inductor_states;
+    kernel.inductor_recorded = inductor_recorded;
+    kernel.energy_roles.clear();
+    for (const auto& element : energy_elements) kernel.energy_roles.push_back(element.second.role);
+  }
+
+  // The Gram matrix costs about (K+1)^2 n; per-signal polynomials (K+1)^2 each. Energy
+  // accounting needs the Gram matrix anyway; without it, few signals go the direct way.
+  bool use_gram() const {
+    return options.energy_accounting || recorded.size() > static_cast<std::size_t>(n_z);
   }
 
   void set_up_nonlinear() {
@@ -683,10 +704,7 @@ struct Simulation::Impl {
   // interior extremum).
   void accumulate_piece(double h) {
     const int order = piece.order();
-    // The Gram matrix costs about (K+1)^2 n; per-signal polynomials (K+1)^2 each. Energy
-    // accounting needs the Gram matrix anyway; without it, few signals go the direct way.
-    const bool use_gram =
-        options.energy_accounting || recorded.size() > static_cast<std::size_t>(n_z);
+    const bool use_gram = kernel.use_gram;
     if (use_gram && current->listed_gram)
       piece.moments(mean.data(), end_z.data(), end_slope.data(), gram.data(), current->gram_pairs);
     else
@@ -757,20 +775,59 @@ struct Simulation::Impl {
     }
   }
 
-  void finish_piece(double h) {
-    accumulate_piece(h);
-    track_inductor_peaks();
+  // The configuration interval and the observer's view of a piece whose coefficients are in
+  // signal_coefficients.
+  void report_piece(double h, int order) {
     record_interval(h);
+    if (!piece_observer) return;
+    PolynomialPiece view;
+    view.t0 = t;
+    view.h = h;
+    view.pat = pattern;
+    view.order = order;
+    view.coefficients = &signal_coefficients;
+    piece_observer->on_piece(view);
+  }
+
+  // One piece of at most h from z, by TaylorPiece and the steps above: its length and the
+  // diode index of the event that ends it (-1 for none). False when the series diverged.
+  bool general_piece(double h, double s_tolerance, double& h_piece, int& which) {
+    if (!piece.expand(current->M, z, h, current->dynamic_rows)) return false;
+    const auto [s_event, event] = find_event(s_tolerance);
+    if (event >= 0) piece.truncate(std::max(s_event, 0.0));
+    h_piece = piece.duration_s();
+    which = event;
+    accumulate_piece(h_piece);
+    track_inductor_peaks();
+    if (piece_observer) piece.project(current->recorded, signal_coefficients);
+    report_piece(h_piece, piece.order());
+    z = end_z;  // the end state, summed by the piece's moments
+    return true;
+  }
+
+  // The same piece by the fixed-size kernel (detail/piece_kernel.hpp), identical to the bit.
+  bool kernel_piece(double h, double s_tolerance, double& h_piece, int& which) {
+    detail::PieceTask task;
+    task.data = current;
+    task.pattern = pattern;
+    task.z = z.data();
+    task.h = h;
+    task.s_tolerance = s_tolerance;
+    task.current_noise = tolerance_for(SignalQuantity::kCurrent);
+    task.voltage_noise = tolerance_for(SignalQuantity::kVoltage);
     if (piece_observer) {
-      piece.project(current->recorded, signal_coefficients);
-      PolynomialPiece view;
-      view.t0 = t;
-      view.h = h;
-      view.pat = pattern;
-      view.order = piece.order();
-      view.coefficients = &signal_coefficients;
-      piece_observer->on_piece(view);
+      task.coefficients = signal_coefficients.data();
+      task.coefficient_rows = static_cast<int>(signal_coefficients.rows());
     }
+    const detail::PieceSinks sinks{&cycle, piece_min.data(), piece_max.data(),
+                                   summary.startup.peak_inductor_current_a.data()};
+    const detail::PieceOutcome outcome = detail::run_piece_kernel(kernel, task, sinks);
+    if (!outcome.converged) return false;
+    ++summary.kernel_pieces;
+    h_piece = outcome.h;
+    which = outcome.event;
+    report_piece(h_piece, outcome.order);
+    return true;
   }
 
   // Handles the device event of diode index d found at the end of the current piece.
@@ -1103,15 +1160,15 @@ struct Simulation::Impl {
       const double remaining = span - tau;
       double h = std::min({remaining, nominal, current->max_step_s});
       if (remaining - h < time_resolution) h = remaining;
-      if (!piece.expand(current->M, z, h, current->dynamic_rows))
+      double h_piece = 0.0;
+      int which = -1;
+      const bool small =
+          options.small_block_kernel && detail::kernel_takes(current->dynamic_rows, n_z);
+      if (!(small ? kernel_piece(h, time_resolution / h, h_piece, which)
+                  : general_piece(h, time_resolution / h, h_piece, which)))
         return fail(RunEnd::kNoConsistentConfiguration, "series expansion did not converge");
-      const auto [s_event, which] = find_event(time_resolution / h);
       const bool last = which < 0 && h == remaining;
-      if (which >= 0) piece.truncate(std::max(s_event, 0.0));
-      const double h_piece = piece.duration_s();
-      finish_piece(h_piece);
       if (steps_valid) steps_now.push_back({current, pattern, h_piece});
-      z = end_z;  // the end state, summed by the piece's moments in finish_piece()
       tau = last ? span : tau + h_piece;
       t = last ? t_target : t_base + tau;
       if (which >= 0 && !state_event(which)) return false;
