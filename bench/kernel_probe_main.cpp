@@ -1,17 +1,20 @@
 // Probe of a fixed-size period kernel (issue 2, speed of computed periods): case 1's period
 // computed with the engine's own algorithms, but with every size fixed at compile time and each
-// configuration's data in flat arrays, side by side with the engine on the same file in one run.
+// configuration's data in flat arrays, side by side in one run with the engine and with the
+// engine's small-block kernel off (SimulationOptions::small_block_kernel).
 //
-// It answers one question: is the engine's cost per computed period (about 12 400 instructions,
-// docs/performance.md) in its algorithms or in their general-purpose setting? The algorithms are
-// the engine's: the Taylor series of exp(M h) z0 with the stopping test of Al-Mohy and Higham
-// (SIAM J. Sci. Comput. 33(2), 2011), the diode's turn-off found by safeguarded Newton on the
-// current's polynomial, the piece truncated at the event with its tail trimmed, and the mean,
-// end value, end slope and Gram matrix of each piece for the average, RMS, extremes and energies.
-// What it leaves out, and a general kernel must still do: the consistency search after an event,
-// the gate bank, the event log, the configuration intervals, the per-element energies, the
-// sub-step bound and the start-up figures. It knows the three configurations of case 1 and is
-// not a simulator; it is a measure of what a lean kernel could reach.
+// It answers one question: how much of the engine's cost per computed period is in its
+// algorithms and how much in their general-purpose setting (docs/performance.md, sixth and
+// seventh rounds)? The algorithms are the engine's: the Taylor series of exp(M h) z0 with the
+// stopping test of Al-Mohy and Higham (SIAM J. Sci. Comput. 33(2), 2011), the diode's turn-off
+// found by safeguarded Newton on the current's polynomial, the piece truncated at the event with
+// its tail trimmed, and the mean, end value, end slope and Gram matrix of each piece for the
+// average, RMS, extremes and energies. What it leaves out, and a general kernel must still do:
+// the consistency search after an event, the gate bank, the event log, the configuration
+// intervals, the per-element energies, the sub-step bound and the start-up figures. It knows the
+// three configurations of case 1 and is not a simulator; it is a measure of what a lean kernel
+// could reach. It prints the largest difference between its last period and the engine's, which
+// shows it did the whole work.
 //
 //   bench_kernel_probe [periods]     default 20 000, from rest, as the benchmark
 #include <algorithm>
@@ -197,8 +200,12 @@ struct PeriodSums {
   sums.dissipated += p.h * (series_resistance_ohm * m.g00 + m.g11 / load_ohm);
 }
 
+// Everything the last period gave. Every sum must be read after the run: a figure the program
+// never reads is work the compiler may drop, and an earlier version of this probe, which read
+// only the average, was timed without its Gram blocks, extremes and energies.
 struct ProbeResult {
   double final_average_v = 0.0;
+  PeriodSums last;
   long events = 0;
 };
 
@@ -251,6 +258,7 @@ ProbeResult run_probe(const pwbench::DcmBoost<double>& b, long periods) {
       z[1] = m.end[1];
     }
     result.final_average_v = sums.integral[1] / period_s;
+    result.last = sums;
   }
   return result;
 }
@@ -294,10 +302,45 @@ int main(int argc, char** argv) {
     pulsewise::Simulation simulation(file.circuit, file.simulation);
     summary = simulation.run();
   });
+  // The engine again with its general piece code only (the small-block kernel off): the
+  // kernel's gain in the same run. Results are identical to the bit.
+  file.simulation.small_block_kernel = false;
+  pulsewise::RunSummary general_summary;
+  const double general_s = best_seconds(kRepetitions, [&] {
+    pulsewise::Simulation simulation(file.circuit, file.simulation);
+    general_summary = simulation.run();
+  });
+  const bool identical =
+      general_summary.last_cycle.signals[0].rms == summary.last_cycle.signals[0].rms &&
+      general_summary.last_cycle.signals[1].max == summary.last_cycle.signals[1].max &&
+      general_summary.last_cycle.energy_in_j == summary.last_cycle.energy_in_j;
   double engine_average = NAN;
   for (std::size_t k = 0; k < summary.recorded.size(); ++k)
     if (summary.recorded[k].name == file.simulation.output_signal)
       engine_average = summary.last_cycle.signals[k].average;
+
+  // The probe's last period against the engine's (recorded signals: out.v, then L1.i): the
+  // largest difference over the averages, RMS values and extremes of both signals (relative to
+  // the signal's largest magnitude, as an extreme can be zero) and the energy delivered and
+  // dissipated (relative to each).
+  const double period_s = 1.0 / boost.frequency_hz;
+  double largest_difference = 0.0;
+  const auto compare = [&](double probe_value, double engine_value, double scale) {
+    largest_difference =
+        std::max(largest_difference, std::fabs(probe_value - engine_value) / scale);
+  };
+  for (int j = 0; j < 2; ++j) {
+    const pulsewise::SignalStats& e = summary.last_cycle.signals[1 - j];  // probe: i_L, v_C
+    const double scale = std::max(std::fabs(e.min), std::fabs(e.max));
+    compare(probe.last.integral[j] / period_s, e.average, scale);
+    compare(std::sqrt(probe.last.square_integral[j] / period_s), e.rms, scale);
+    compare(probe.last.min[j], e.min, scale);
+    compare(probe.last.max[j], e.max, scale);
+  }
+  compare(probe.last.energy_in, summary.last_cycle.energy_in_j,
+          std::fabs(summary.last_cycle.energy_in_j));
+  compare(probe.last.dissipated, summary.last_cycle.dissipated_j,
+          std::fabs(summary.last_cycle.dissipated_j));
 
   const long double reference =
       pwbench::ReferenceSolver<pwbench::DcmBoost>({periods, 0.5L}).run().final_average;
@@ -307,10 +350,13 @@ int main(int argc, char** argv) {
   };
   std::printf(
       "{\"periods\": %ld, \"probe_periods_per_s\": %.4g, \"engine_periods_per_s\": %.4g, "
-      "\"probe_over_engine\": %.3f, \"probe_rel_error\": %.2e, \"engine_rel_error\": %.2e, "
-      "\"probe_events\": %ld, \"engine_events\": %ld}\n",
+      "\"general_engine_periods_per_s\": %.4g, \"kernel_over_general\": %.3f, "
+      "\"kernel_identical_to_general\": %s, \"probe_over_engine\": %.3f, \"probe_rel_error\": "
+      "%.2e, \"engine_rel_error\": %.2e, "
+      "\"probe_events\": %ld, \"engine_events\": %ld, \"last_period_largest_difference\": %.2e}\n",
       periods, static_cast<double>(periods) / probe_s, static_cast<double>(periods) / engine_s,
+      static_cast<double>(periods) / general_s, general_s / engine_s, identical ? "true" : "false",
       engine_s / probe_s, error(probe.final_average_v), error(engine_average), probe.events,
-      static_cast<long>(summary.events));
+      static_cast<long>(summary.events), largest_difference);
   return 0;
 }
