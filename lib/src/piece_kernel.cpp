@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstring>
 #include <limits>
 
 #include "detail/polynomial.hpp"
@@ -133,16 +134,91 @@ template <int D>
   return poly::interior_extremum(a, s.order, d0, d1, kExtremumTolerance);
 }
 
-// TaylorPiece::moments (piece_moments and static_gram_blocks in taylor_piece.cpp). One pass over
-// the terms for every moment, where taylor_piece.cpp makes one per entry and one for the Gram
-// block: each accumulator still sees the same operations in the same order.
+// H += z_k y_k^T over the moving block (see moments()).
+template <int D>
+[[gnu::always_inline]] inline void add_outer(const double* zk, const double* y, double* g) {
+  for (int j = 0; j < D; ++j)
+    for (int i = 0; i < D; ++i) g[i + j * D] += zk[i] * y[j];
+}
+
+// y0 += sum_{l >= k+2} z_l / (k + l + 1) and y1 += sum_{l >= k+2} z_l / (k + l + 2), in order
+// of l. For an even block the entries go two at a time through 16-byte vector operations
+// (GCC vector extensions), which round each lane exactly as the scalar operations do.
+template <int D>
+[[gnu::always_inline]] inline void accumulate_later_terms(const Series<D>& s, int k, double* y0,
+                                                          double* y1) {
+  const double* reciprocal = poly::kReciprocal.value;
+  const int order = s.order;
+  if constexpr (D % 2 == 0) {
+    using Pair = double __attribute__((vector_size(16)));
+    Pair a[D / 2], b[D / 2];
+    std::memcpy(a, y0, sizeof a);
+    std::memcpy(b, y1, sizeof b);
+    for (int l = k + 2; l <= order; ++l) {
+      Pair z[D / 2];
+      std::memcpy(z, s.term[l], sizeof z);
+      const double w0 = reciprocal[k + l], w1 = reciprocal[k + 1 + l];
+      for (int i = 0; i < D / 2; ++i) {
+        a[i] += w0 * z[i];
+        b[i] += w1 * z[i];
+      }
+    }
+    std::memcpy(y0, a, sizeof a);
+    std::memcpy(y1, b, sizeof b);
+  } else {
+    for (int l = k + 2; l <= order; ++l) {
+      const double* zl = s.term[l];
+      const double w0 = reciprocal[k + l], w1 = reciprocal[k + 1 + l];
+      for (int i = 0; i < D; ++i) {
+        y0[i] += w0 * zl[i];
+        y1[i] += w1 * zl[i];
+      }
+    }
+  }
+}
+
+// The Gram block of the moving entries, G = H + H^T with H = sum_k z_k y_k^T and
+// y_k = z_k / (2 (2k + 1)) + sum_{l > k} z_l / (k + l + 1) (as piece_moments in
+// taylor_piece.cpp). Two weight vectors y_k, y_{k+1} per pass over the later terms, so that each
+// term is loaded once for both; every accumulator still sees the same operations in the same
+// order, so the result is identical to the bit.
+template <int D>
+[[gnu::always_inline]] inline void gram_block(const Series<D>& s, double* g) {
+  const int order = s.order;
+  const double* reciprocal = poly::kReciprocal.value;
+  for (int i = 0; i < D * D; ++i) g[i] = 0.0;
+  int k = 0;
+  for (; k + 1 <= order; k += 2) {
+    const double* z0 = s.term[k];
+    const double* z1 = s.term[k + 1];
+    const double d0 = 0.5 * reciprocal[2 * k], d1 = 0.5 * reciprocal[2 * k + 2];
+    double y0[D], y1[D];
+    for (int i = 0; i < D; ++i) {
+      y0[i] = d0 * z0[i];
+      y1[i] = d1 * z1[i];
+    }
+    const double w01 = reciprocal[2 * k + 1];
+    for (int i = 0; i < D; ++i) y0[i] += w01 * z1[i];
+    accumulate_later_terms<D>(s, k, y0, y1);
+    add_outer<D>(z0, y0, g);
+    add_outer<D>(z1, y1, g);
+  }
+  if (k == order) {  // the last term alone: y_K = z_K / (2 (2K + 1))
+    const double* zk = s.term[k];
+    const double d = 0.5 * reciprocal[2 * k];
+    double y[D];
+    for (int i = 0; i < D; ++i) y[i] = d * zk[i];
+    add_outer<D>(zk, y, g);
+  }
+}
+
+// TaylorPiece::moments (piece_moments and static_gram_blocks in taylor_piece.cpp), every
+// accumulator with the same operations in the same order.
 template <int D>
 [[gnu::always_inline]] inline void moments(const Series<D>& s, bool with_gram, Moments& out) {
   const int n = s.size, order = s.order;
   const double* reciprocal = poly::kReciprocal.value;
   double mean[D] = {}, end[D] = {}, slope[D] = {};
-  // G = H + H^T with H = sum_k z_k y_k^T, y_k = z_k / (2 (2k + 1)) + sum_{l > k} z_l / (k+l+1).
-  double g[D * D] = {};
   double weight = 0.0;
   for (int k = 0; k <= order; ++k, weight += 1.0) {
     const double* zk = s.term[k];
@@ -151,16 +227,6 @@ template <int D>
       end[i] += zk[i];
       slope[i] += weight * zk[i];
     }
-    if (!with_gram) continue;
-    const double diagonal = 0.5 * reciprocal[2 * k];
-    double y[D];
-    for (int i = 0; i < D; ++i) y[i] = diagonal * zk[i];
-    for (int l = k + 1; l <= order; ++l) {
-      const double w = reciprocal[k + l];
-      for (int i = 0; i < D; ++i) y[i] += w * s.term[l][i];
-    }
-    for (int j = 0; j < D; ++j)
-      for (int i = 0; i < D; ++i) g[i + j * D] += zk[i] * y[j];
   }
   for (int i = 0; i < D; ++i) {
     out.mean[i] = mean[i];
@@ -173,6 +239,8 @@ template <int D>
     out.end_slope[i] = out.slope_at_start[i] = 0.0;
   }
   if (!with_gram) return;
+  double g[D * D];
+  gram_block<D>(s, g);
   double* gram = out.gram;
   for (int j = 0; j < D; ++j)
     for (int i = 0; i <= j; ++i) gram[i + j * n] = gram[j + i * n] = g[i + j * D] + g[j + i * D];
