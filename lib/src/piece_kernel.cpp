@@ -14,8 +14,8 @@ namespace {
 constexpr int kMaxOrder = TaylorPiece::kMaxOrder;
 constexpr double kUnitRoundoff = std::numeric_limits<double>::epsilon() / 2;
 constexpr double kInf = std::numeric_limits<double>::infinity();
-// As in simulation.cpp: the location tolerance of an interior extremum, in units of the piece.
-constexpr double kExtremumTolerance = 1e-9;
+using poly::kExtremumTolerance;
+using poly::slope_changes_sign;
 
 // The moving block of the terms z_k = (M h)^k z0 / k!; past it z is the constant z0.
 template <int D>
@@ -278,10 +278,6 @@ template <int D>
     }
   }
   return {which >= 0 ? best : -1.0, which};
-}
-
-inline bool slope_changes_sign(double d0, double d1) {
-  return (d0 < 0) != (d1 < 0) && d0 != 0 && d1 != 0;
 }
 
 // accumulate_piece in simulation.cpp: averages, RMS and extremes of the recorded signals.

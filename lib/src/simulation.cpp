@@ -68,10 +68,8 @@ namespace {
 
 constexpr double kInf = std::numeric_limits<double>::infinity();
 
-// Location tolerance (in units of the piece) of an interior extremum. Only its value is used,
-// and at a stationary point the value's error is second order in the location's: p(s* + e) -
-// p(s*) = p''(s*) e^2 / 2. With e <= 1e-9 the value is exact to rounding.
-constexpr double kExtremumTolerance = 1e-9;
+using poly::kExtremumTolerance;
+using poly::slope_changes_sign;
 
 // a . z over n entries: the rows and states here are tiny, and a plain loop beats the general
 // dot product's set-up.
@@ -704,11 +702,11 @@ struct Simulation::Impl {
   // interior extremum).
   void accumulate_piece(double h) {
     const int order = piece.order();
-    const bool use_gram = kernel.use_gram;
-    if (use_gram && current->listed_gram)
+    const bool with_gram = use_gram();
+    if (with_gram && current->listed_gram)
       piece.moments(mean.data(), end_z.data(), end_slope.data(), gram.data(), current->gram_pairs);
     else
-      piece.moments(mean.data(), end_z.data(), end_slope.data(), use_gram ? gram.data() : nullptr);
+      piece.moments(mean.data(), end_z.data(), end_slope.data(), with_gram ? gram.data() : nullptr);
     const double* z0 = piece.terms().data();
     // z_1, the slope at s = 0: zero for a constant piece (see TaylorPiece::terms()).
     const double* z1 = z0 + n_z;
@@ -718,10 +716,10 @@ struct Simulation::Impl {
       const auto [y0, y1, d0, d1, average] =
           detail::dots<5>(c, {z0, end_z.data(), z1, end_slope.data(), mean.data()});
       const bool turns = slope_changes_sign(d0, d1);
-      if (!use_gram || turns) piece.project_row(current->recorded.row(j).data(), a);
+      if (!with_gram || turns) piece.project_row(current->recorded.row(j).data(), a);
       cycle.integral[j] += h * average;
-      cycle.square_integral[j] += h * (use_gram ? detail::bilinear(c, gram.data(), n_z, c)
-                                                : poly::product_integral(a, a, order));
+      cycle.square_integral[j] += h * (with_gram ? detail::bilinear(c, gram.data(), n_z, c)
+                                                 : poly::product_integral(a, a, order));
       double lo = std::min(y0, y1), hi = std::max(y0, y1);
       if (turns) {
         const double v = poly::interior_extremum(a, order, d0, d1, kExtremumTolerance);
@@ -741,12 +739,6 @@ struct Simulation::Impl {
                                                              : cycle.dissipated) += e;
       cycle.element_energy[k] += e;
     }
-  }
-
-  // An interior extremum exists (at most one on a piece, see docs/method.md) only where the
-  // slope at the two ends has opposite signs.
-  static bool slope_changes_sign(double d0, double d1) {
-    return (d0 < 0) != (d1 < 0) && d0 != 0 && d1 != 0;
   }
 
   // Uses the moments of accumulate_piece(): end values and slopes come from there, and only an

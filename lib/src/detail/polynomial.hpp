@@ -127,6 +127,17 @@ inline double stationary_point(const double* a, int order, double lo, double d_l
   return root(slope, order - 1, lo, d_lo, hi, s_tolerance, start);
 }
 
+// An interior extremum exists (at most one on a piece, see docs/method.md) only where the
+// slopes at the two ends have opposite signs.
+inline bool slope_changes_sign(double d0, double d1) {
+  return (d0 < 0) != (d1 < 0) && d0 != 0.0 && d1 != 0.0;
+}
+
+// Location tolerance (in units of the piece) of an interior extremum. Only its value is used,
+// and at a stationary point the value's error is second order in the location's: p(s* + e) -
+// p(s*) = p''(s*) e^2 / 2. With e <= 1e-9 the value is exact to rounding.
+inline constexpr double kExtremumTolerance = 1e-9;
+
 // Value of p at its interior extremum on [0, 1], given the slopes d0 = p'(0) and d1 = p'(1) of
 // opposite signs. Only the value is wanted, and it is second order in the location's error, so
 // s_tolerance can be far coarser than for an event time.
@@ -145,7 +156,7 @@ inline double first_downcrossing(const double* a, int order, double noise, doubl
   const double p0 = a[0], p1 = value_at_one(a, order);
   const double d0 = order >= 1 ? a[1] : 0.0, d1 = slope_at_one(a, order);
   double split = -1.0;
-  if ((d0 < 0) != (d1 < 0) && d0 != 0.0 && d1 != 0.0)
+  if (slope_changes_sign(d0, d1))
     split = stationary_point(a, order, 0.0, d0, 1.0, s_tolerance, secant_point(0.0, d0, 1.0, d1));
   double lo = 0.0, p_lo = p0;
   for (double hi : {split, 1.0}) {
