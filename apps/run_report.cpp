@@ -239,6 +239,7 @@ nlohmann::json run_report_json(const RunReport& r) {
       {"cache_hits", s.cache_hits},
       {"replayed_periods", s.replayed_periods},
       {"kernel_pieces", s.kernel_pieces},
+      {"operator_pieces", s.operator_pieces},
       {"repeated_periods", s.repeated_periods},
       {"recurrence_periods", s.recurrence_periods},
       {"wall_time_s", s.wall_time_s},

@@ -18,3 +18,4 @@ pulsewise_add_test(line_frequency_test SOURCES line_frequency_test.cpp LIBS puls
 pulsewise_add_test(taylor_piece_test SOURCES taylor_piece_test.cpp LIBS pulsewise::core)
 pulsewise_add_test(period_replay_test SOURCES period_replay_test.cpp LIBS pulsewise::core)
 pulsewise_add_test(piece_kernel_test SOURCES piece_kernel_test.cpp LIBS pulsewise::core)
+pulsewise_add_test(piece_operators_test SOURCES piece_operators_test.cpp LIBS pulsewise::core)

@@ -49,6 +49,8 @@ RunRecord run(const Circuit& circuit, SimulationOptions options, bool kernel, bo
   // Every period computed piece by piece (a replayed or repeated period has no pieces).
   options.repeat_recurring_periods = false;
   options.replay_repeating_periods = false;
+  // Every piece computed by its series (pieces met again would come from their operators).
+  options.reuse_piece_operators = false;
   RunRecord r{RunSummary{}, Collector(pieces)};
   r.collector.signals = options.recorded_signals.size();
   Simulation simulation(circuit, options);
@@ -107,60 +109,35 @@ void expect_kernel_identical(const Circuit& circuit, const SimulationOptions& op
   }
 }
 
-SimulationOptions options_for(long periods, std::vector<std::string> signals) {
-  SimulationOptions options;
-  options.periods = periods;
-  options.recorded_signals = std::move(signals);
-  options.output_signal = "out.v";
-  return options;
-}
-
 // Two moving states; the start-up from rest passes through CCM into DCM (test::dcm_boost).
 TEST(PieceKernel, DcmBoostRunIsIdenticalToTheGeneralCode) {
-  expect_kernel_identical(test::dcm_boost(), options_for(1500, {"out.v", "L1.i", "sw.v"}), false);
+  expect_kernel_identical(test::dcm_boost(), test::run_options(1500, {"out.v", "L1.i", "sw.v"}),
+                          false);
 }
 
 // Without energy accounting and with fewer signals than entries of z the RMS comes from each
 // signal's polynomial instead of the Gram matrix.
 TEST(PieceKernel, RmsFromSignalPolynomialsIsIdenticalToTheGeneralCode) {
-  SimulationOptions options = options_for(800, {"out.v"});
+  SimulationOptions options = test::run_options(800, {"out.v"});
   options.energy_accounting = false;
   expect_kernel_identical(test::dcm_boost(), options, false);
 }
 
 // An observer of pieces receives the kernel's polynomial coefficients.
 TEST(PieceKernel, PiecesSeenByAnObserverAreIdenticalToTheGeneralCode) {
-  expect_kernel_identical(test::dcm_boost(), options_for(300, {"out.v", "L1.i"}), true);
+  expect_kernel_identical(test::dcm_boost(), test::run_options(300, {"out.v", "L1.i"}), true);
 }
 
-// One moving state: an RL charged through a switch, freewheeling through a diode (invented demo
-// values, 100 kHz, D = 0.4, L / R = 25 periods).
+// One moving state (test::rl_chopper).
 TEST(PieceKernel, OneMovingStateIsIdenticalToTheGeneralCode) {
-  Circuit c("rl chopper");
-  c.add_voltage_source("Vin", "in", "0", Waveform::constant(10.0))
-      .add_switch("S1", "in", "sw", "pwm", SwitchOptions{20e-3, kOpen})
-      .add_diode("D1", "0", "sw", DiodeOptions{20e-3, 0.3, kOpen})
-      .add_inductor("L1", "sw", "out", 500e-6)
-      .add_resistor("R1", "out", "0", 2.0)
-      .add_modulator(test::pwm(100e3, 0.4));
-  expect_kernel_identical(c, options_for(500, {"out.v", "L1.i"}), false);
+  expect_kernel_identical(test::rl_chopper(), test::run_options(500, {"out.v", "L1.i"}), false);
 }
 
-// Four moving states: a SEPIC in DCM (invented demo values: 12 V, 100 kHz, D = 0.35, 10 uH
-// windings, 10 uF coupling, 47 uF output, 40 ohm), whose idle interval carries the coupled
+// Four moving states: a SEPIC in DCM (test::dcm_sepic), whose idle interval carries the coupled
 // circulating current of the two inductors.
 TEST(PieceKernel, FourMovingStatesAreIdenticalToTheGeneralCode) {
-  Circuit c("sepic");
-  c.add_voltage_source("Vin", "in", "0", Waveform::constant(12.0))
-      .add_inductor("L1", "in", "a", 10e-6)
-      .add_switch("S1", "a", "0", "pwm", SwitchOptions{10e-3, kOpen})
-      .add_capacitor("C1", "a", "b", 10e-6)
-      .add_inductor("L2", "b", "0", 10e-6)
-      .add_diode("D1", "b", "out", DiodeOptions{10e-3, 0.4, kOpen})
-      .add_capacitor("C2", "out", "0", 47e-6)
-      .add_resistor("Rload", "out", "0", 40.0)
-      .add_modulator(test::pwm(100e3, 0.35));
-  expect_kernel_identical(c, options_for(600, {"out.v", "L1.i", "L2.i", "a.v"}), false);
+  expect_kernel_identical(test::dcm_sepic(),
+                          test::run_options(600, {"out.v", "L1.i", "L2.i", "a.v"}), false);
 }
 
 // Past the kernel's size (more than 4 moving states) the general code computes every piece: a
@@ -189,7 +166,7 @@ TEST(PieceKernel, ConfigurationsWithMoreThanFourMovingStatesUseTheGeneralCode) {
       .add_inductor("L2", "mid", "out", 1e-6)
       .add_capacitor("C2", "out", "0", 47e-6)
       .add_resistor("Rload", "out", "0", 3.0);
-  const RunRecord with = run(c, options_for(200, {"out.v", "L1.i"}), true, false);
+  const RunRecord with = run(c, test::run_options(200, {"out.v", "L1.i"}), true, false);
   ASSERT_TRUE(with.summary.ok()) << with.summary.message;
   EXPECT_EQ(with.summary.cycles, 200);
   EXPECT_EQ(with.summary.kernel_pieces, 0);

@@ -31,6 +31,7 @@
 #include "detail/nonlinear.hpp"
 #include "detail/period_replay.hpp"
 #include "detail/piece_kernel.hpp"
+#include "detail/piece_operators.hpp"
 #include "detail/polynomial.hpp"
 #include "detail/stiff_integrator.hpp"
 
@@ -137,6 +138,20 @@ struct Simulation::Impl {
   const PatternData* current = nullptr;
   detail::TaylorPiece piece;
   detail::KernelLayout kernel;  // the fixed-size piece kernel's view of the run
+  // Pieces met again (reuse_piece_operators): per configuration and length, the operators built
+  // at its second occurrence, and how often their check kept or handed back the piece.
+  struct OperatorEntry {
+    const PatternData* data = nullptr;
+    double h = 0.0;
+    bool built = false, disabled = false;
+    long kept = 0, refused = 0;
+    int builds = 0;
+    detail::PieceOperators operators;
+  };
+  std::vector<OperatorEntry> operator_entries;
+  // Counts the changes of operator_entries that change results (a new entry, a build): a period
+  // is computed the same way only from the same count (see PeriodStart).
+  int operator_epoch = 0;
   Eigen::MatrixXd signal_coefficients;
   CycleAccumulator cycle;
   RunSummary summary;
@@ -190,6 +205,7 @@ struct Simulation::Impl {
     // replay_builds) or the piece engine.
     bool replayed = false;
     int replay_builds = 0;
+    int operator_epoch = 0;  // and the operators of the pieces met again
   };
   // A period near the steady state: where it began, and what it gave (see recurrence_found).
   struct PeriodRecord {
@@ -797,8 +813,8 @@ struct Simulation::Impl {
     return true;
   }
 
-  // The same piece by the fixed-size kernel (detail/piece_kernel.hpp), identical to the bit.
-  bool kernel_piece(double h, double s_tolerance, double& h_piece, int& which) {
+  // The current piece of at most h from z, for the kernel and the operators.
+  detail::PieceTask piece_task(double h, double s_tolerance) {
     detail::PieceTask task;
     task.data = current;
     task.pattern = pattern;
@@ -807,18 +823,87 @@ struct Simulation::Impl {
     task.s_tolerance = s_tolerance;
     task.current_noise = tolerance_for(SignalQuantity::kCurrent);
     task.voltage_noise = tolerance_for(SignalQuantity::kVoltage);
+    return task;
+  }
+  detail::PieceSinks piece_sinks() {
+    return {&cycle, piece_min.data(), piece_max.data(),
+            summary.startup.peak_inductor_current_a.data()};
+  }
+
+  // The same piece by the fixed-size kernel (detail/piece_kernel.hpp), identical to the bit.
+  bool kernel_piece(double h, double s_tolerance, double& h_piece, int& which) {
+    detail::PieceTask task = piece_task(h, s_tolerance);
     if (piece_observer) {
       task.coefficients = signal_coefficients.data();
       task.coefficient_rows = static_cast<int>(signal_coefficients.rows());
     }
-    const detail::PieceSinks sinks{&cycle, piece_min.data(), piece_max.data(),
-                                   summary.startup.peak_inductor_current_a.data()};
+    const detail::PieceSinks sinks = piece_sinks();
     const detail::PieceOutcome outcome = detail::run_piece_kernel(kernel, task, sinks);
     if (!outcome.converged) return false;
     ++summary.kernel_pieces;
     h_piece = outcome.h;
     which = outcome.event;
     report_piece(h_piece, outcome.order);
+    return true;
+  }
+
+  // ---- pieces met again (detail/piece_operators.hpp) ----------------------------------------
+
+  bool operators_allowed() const {
+    return options.reuse_piece_operators && options.cache && !piece_observer;
+  }
+
+  // The entry of the current configuration and length h, created on first sight; null when the
+  // table is full. A configuration whose piece lengths keep changing (the idle interval of a DCM
+  // start-up) stops adding entries once it holds kLengthsPerConfiguration, so that the table
+  // stops changing (the repeat needs that) and a miss stays a short scan.
+  OperatorEntry* operator_entry(double h) {
+    constexpr std::size_t kMaxEntries = 16;
+    constexpr int kLengthsPerConfiguration = 4;
+    int lengths = 0;
+    for (OperatorEntry& e : operator_entries) {
+      if (e.data != current) continue;
+      if (e.h == h) return &e;
+      ++lengths;
+    }
+    if (lengths >= kLengthsPerConfiguration || operator_entries.size() >= kMaxEntries)
+      return nullptr;
+    operator_entries.push_back({current, h, false, false, 0, 0, 0, {}});
+    ++operator_epoch;
+    return nullptr;  // first sight: the series computes it
+  }
+
+  // The piece of length h from the operators of its configuration and length, built at its
+  // second occurrence, and built again when the sources they fold in have changed (a step or a
+  // breakpoint; an entry whose sources keep changing is given up after a few builds). False,
+  // with nothing changed, when there are none or their check hands the piece back (a device
+  // condition may cross zero inside it). An entry handed back more often than kept (a stretch
+  // that a diode event ends, such as the diode interval of a DCM period) is not tried again:
+  // its check would only add to the series.
+  bool operator_piece(double h, double s_tolerance) {
+    constexpr int kFreeBuilds = 8;
+    constexpr long kPiecesPerBuild = 64;
+    OperatorEntry* e = operator_entry(h);
+    if (!e || e->disabled) return false;
+    if (!e->built || !e->operators.matches(z.data())) {
+      ++operator_epoch;
+      e->built = true;
+      if ((e->builds >= kFreeBuilds && e->kept < kPiecesPerBuild * e->builds) ||
+          !e->operators.build(*current, h, z.data(), kernel)) {
+        e->disabled = true;  // sources that keep changing, or a series that does not converge
+        return false;
+      }
+      ++e->builds;
+    }
+    detail::PieceTask task = piece_task(h, s_tolerance);
+    const detail::PieceSinks sinks = piece_sinks();
+    if (!e->operators.apply(kernel, task, sinks)) {
+      e->disabled = ++e->refused > 2 && e->refused > e->kept;
+      return false;
+    }
+    ++e->kept;
+    ++summary.operator_pieces;
+    report_piece(h, e->operators.order());
     return true;
   }
 
@@ -1154,11 +1239,14 @@ struct Simulation::Impl {
       if (remaining - h < time_resolution) h = remaining;
       double h_piece = 0.0;
       int which = -1;
-      const bool small =
-          options.small_block_kernel && detail::kernel_takes(current->dynamic_rows, n_z);
-      if (!(small ? kernel_piece(h, time_resolution / h, h_piece, which)
-                  : general_piece(h, time_resolution / h, h_piece, which)))
+      const bool small = detail::kernel_takes(current->dynamic_rows, n_z);
+      if (small && operators_allowed() && operator_piece(h, time_resolution / h)) {
+        h_piece = h;
+      } else if (!(small && options.small_block_kernel
+                       ? kernel_piece(h, time_resolution / h, h_piece, which)
+                       : general_piece(h, time_resolution / h, h_piece, which))) {
         return fail(RunEnd::kNoConsistentConfiguration, "series expansion did not converge");
+      }
       const bool last = which < 0 && h == remaining;
       if (steps_valid) steps_now.push_back({current, pattern, h_piece});
       tau = last ? span : tau + h_piece;
@@ -1351,6 +1439,8 @@ struct Simulation::Impl {
     in_idle = false;
     cycle.reset(recorded.size(), energy_elements.size());
     replay.clear();
+    operator_entries.clear();
+    operator_epoch = 0;
     steps_before.clear();
     replay_next = false;
     replay_builds = 0;
@@ -1449,6 +1539,7 @@ struct Simulation::Impl {
     s.voltage_scale = voltage_scale;
     s.replayed = replay_next;
     s.replay_builds = replay_builds;
+    s.operator_epoch = operator_epoch;
   }
 
   // FNV-1a over the words of z and the pattern (the lookup key; starts_here() decides).
@@ -1468,7 +1559,7 @@ struct Simulation::Impl {
     return s.pattern == pattern && s.data == current && s.in_idle == in_idle &&
            s.last_switch_off == last_switch_off && s.current_scale == current_scale &&
            s.voltage_scale == voltage_scale && s.replayed == replay_next &&
-           s.replay_builds == replay_builds &&
+           s.replay_builds == replay_builds && s.operator_epoch == operator_epoch &&
            std::memcmp(s.z.data(), z.data(), sizeof(double) * static_cast<std::size_t>(n_z)) == 0;
   }
 

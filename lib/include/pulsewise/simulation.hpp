@@ -82,6 +82,13 @@ struct SimulationOptions {
   // as the general code (14 to 20 % fewer instructions on the benchmark's DCM converters). Off
   // only to check it: results are identical.
   bool small_block_kernel = true;
+  // A piece met again in the same configuration and length (the on-time of a DCM period, from
+  // one gate edge to the next) is computed, for configurations the kernel takes, from operators
+  // built once for them: its results are linear and quadratic functions of its start state. Their
+  // check hands the piece back to the series where a device condition may cross zero inside it.
+  // Needs `cache`; not used while an observer that wants every piece is attached. Off only to
+  // check it: results agree with the series to rounding.
+  bool reuse_piece_operators = true;
   // Per-cycle energy from sources, change in stored energy and energy dissipated.
   bool energy_accounting = true;
   // ODE path (circuits with saturating inductors or constant-power loads): error tolerances of
@@ -169,6 +176,7 @@ struct RunSummary {
   std::size_t cache_hits = 0;
   long replayed_periods = 0;  // periods computed by SimulationOptions::replay_repeating_periods
   long kernel_pieces = 0;     // pieces computed by SimulationOptions::small_block_kernel
+  long operator_pieces = 0;   // pieces computed by SimulationOptions::reuse_piece_operators
   // SimulationOptions::repeat_recurring_periods: the periods taken from earlier ones, and the
   // length of the cycle of states they repeat (1 for a steady state to the last bit; 0: none).
   long repeated_periods = 0;
