@@ -2,6 +2,7 @@
 // give (trailing-edge PWM, complementary pair with dead time, soft start, schedules).
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cmath>
 
 #include "detail/gate_bank.hpp"
@@ -134,12 +135,9 @@ TEST(Modulator, FullDutyKeepsTheGateOnWithoutEdgesInsideThePeriod) {
   EXPECT_GE(bank.next_edge_after(0.0), kT * (1 - 1e-12));
 }
 
-}  // namespace
-
-// The cycle loop reuses one period's edge offsets once the gates repeat (gate_bank.hpp). The
-// reused offsets must be the instants the definitions give, in every period, including the ones
-// a phase shift pulls in from the gate period before and the ones after a soft start ramp.
-TEST(Modulator, ReusedPeriodOffsetsMatchTheDirectEdgeSearchInEveryPeriod) {
+// A complementary pair with dead time and a soft start, and a phase-shifted PWM whose
+// on-interval wraps across the run period boundary (invented test values).
+Circuit pair_and_shifted_pwm() {
   Circuit c;
   c.add_voltage_source("V1", "a", "0", Waveform::constant(1.0))
       .add_switch("Sa", "a", "b", "p.high")
@@ -160,6 +158,16 @@ TEST(Modulator, ReusedPeriodOffsetsMatchTheDirectEdgeSearchInEveryPeriod) {
   shifted.duty_cycle = 0.35;
   shifted.phase = 0.8;  // its on-interval wraps across the run period boundary
   c.add_modulator(shifted);
+  return c;
+}
+
+}  // namespace
+
+// The cycle loop reuses one period's edge offsets once the gates repeat (gate_bank.hpp). The
+// reused offsets must be the instants the definitions give, in every period, including the ones
+// a phase shift pulls in from the gate period before and the ones after a soft start ramp.
+TEST(Modulator, ReusedPeriodOffsetsMatchTheDirectEdgeSearchInEveryPeriod) {
+  const Circuit c = pair_and_shifted_pwm();
   GateBank bank(c, devices_of(c), 1e-12 * kT, kT);
   // Offsets of the edges inside one period, from whichever search `next` stands for.
   auto offsets = [](auto next) {
@@ -183,4 +191,27 @@ TEST(Modulator, ReusedPeriodOffsetsMatchTheDirectEdgeSearchInEveryPeriod) {
   // 5 edges inside each period: the pair's high-side off, low-side on and low-side off (its
   // high-side on is the period start itself), and q's off at 0.15 T and on at 0.8 T.
   EXPECT_EQ(compared, 12 * 5);
+}
+
+// The patterns reused at the offsets of a periodic period (switch_pattern_in_period) must be
+// the ones the gate definitions give at those instants, in every period after the soft start,
+// including the period end (the next period's start).
+TEST(Modulator, ReusedPatternsMatchTheGateDefinitionsInEveryPeriod) {
+  const Circuit c = pair_and_shifted_pwm();
+  GateBank bank(c, devices_of(c), 1e-12 * kT, kT);
+  std::vector<DevicePattern> seen;
+  for (long k = 0; k < 12; ++k) {
+    const long double origin = static_cast<long double>(k) * kT;
+    for (double tau = 0.0;;) {
+      const double e = std::min(bank.next_edge_in_period(k, origin, tau), kT);
+      const DevicePattern direct = bank.switch_pattern(static_cast<double>(origin + e));
+      EXPECT_EQ(bank.switch_pattern_in_period(k, origin, e), direct)
+          << "period " << k << ", offset " << e / kT << " T";
+      if (std::find(seen.begin(), seen.end(), direct) == seen.end()) seen.push_back(direct);
+      if (e == kT) break;
+      tau = e;
+    }
+  }
+  // The comparison is not vacuous: the pair and q pass through several patterns per period.
+  EXPECT_GE(seen.size(), 4u);
 }

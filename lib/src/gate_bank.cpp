@@ -53,19 +53,35 @@ GateBank::GateBank(const Circuit& circuit, const std::vector<int>& devices,
 
 double GateBank::next_edge_in_period(long period_index, long double origin, double tau) const {
   if (periodic_from_ < 0 || period_index < periodic_from_) return next_edge_after(origin, tau);
-  if (!offsets_found_) {
-    for (double x = 0.0;;) {
-      const double e = next_edge_after(origin, x);
-      if (!(e < run_period_s_ - resolution_s_)) break;
-      periodic_offsets_.push_back(e);
-      x = e;
-    }
-    offsets_found_ = true;
-  }
+  find_periodic_offsets(origin);
   const double slack = std::max<double>(resolution_s_, 8 * std::abs(origin + tau) * 1e-19L);
   for (double e : periodic_offsets_)
     if (e > tau + slack) return e;
   return kNever;
+}
+
+void GateBank::find_periodic_offsets(long double origin) const {
+  if (offsets_found_) return;
+  for (double x = 0.0;;) {
+    const double e = next_edge_after(origin, x);
+    if (!(e < run_period_s_ - resolution_s_)) break;
+    periodic_offsets_.push_back(e);
+    periodic_patterns_.push_back(switch_pattern(static_cast<double>(origin + e)));
+    x = e;
+  }
+  periodic_start_pattern_ = switch_pattern(static_cast<double>(origin));
+  offsets_found_ = true;
+}
+
+DevicePattern GateBank::switch_pattern_in_period(long period_index, long double origin,
+                                                 double tau) const {
+  const double t = static_cast<double>(origin + tau);
+  if (periodic_from_ < 0 || period_index < periodic_from_) return switch_pattern(t);
+  find_periodic_offsets(origin);
+  if (tau == run_period_s_) return periodic_start_pattern_;  // the next period's start
+  for (std::size_t i = 0; i < periodic_offsets_.size(); ++i)
+    if (periodic_offsets_[i] == tau) return periodic_patterns_[i];
+  return switch_pattern(t);  // a source breakpoint between the edges
 }
 
 double GateBank::duty_of_period(const Gate& g, long k) const {

@@ -1468,7 +1468,7 @@ struct Simulation::Impl {
       if (!advance_until(t + (tau_next - tau), tau_next - tau)) return false;
       tau = tau_next;
       t = static_cast<double>(origin + tau);
-      const DevicePattern switches = gates->switch_pattern(t);
+      const DevicePattern switches = gates->switch_pattern_in_period(k, origin, tau);
       if (steps_valid) steps_now.push_back({nullptr, switches, tau});
       if (!apply_schedule(switches)) return false;
     }

@@ -30,6 +30,10 @@ class GateBank {
   // every switch gate repeats with that period and no duty ramps any more, the edge offsets of
   // one period are found once and reused: the same offsets, without the long-double search.
   double next_edge_in_period(long period_index, long double origin, double tau) const;
+  // switch_pattern(origin + tau) inside run period `period_index`. Where the edge offsets are
+  // reused (next_edge_in_period()), the pattern just after each of them and at the period's
+  // start is found once with them: at those offsets no gate is evaluated again.
+  DevicePattern switch_pattern_in_period(long period_index, long double origin, double tau) const;
   // True when the edges of run period `period_index` are those of every later period.
   bool periodic_at(long period_index) const {
     return periodic_from_ >= 0 && period_index >= periodic_from_;
@@ -61,6 +65,9 @@ class GateBank {
   long periodic_from_ = -1;
   mutable bool offsets_found_ = false;
   mutable std::vector<double> periodic_offsets_;
+  mutable std::vector<DevicePattern> periodic_patterns_;  // just after each offset
+  mutable DevicePattern periodic_start_pattern_ = 0;      // just after a period's start
+  void find_periodic_offsets(long double origin) const;
 };
 
 }  // namespace pulsewise::detail
