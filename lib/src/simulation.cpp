@@ -1521,9 +1521,10 @@ struct Simulation::Impl {
   // the last kRecurrenceDepth periods. A period that ends, to the bit, where a kept period began
   // closes a cycle: every later period poses the same problem as a period of the cycle, and its
   // results are that period's. A steady state reached to the last bit is a cycle of one period;
-  // rounding can also settle into a cycle of a few.
+  // rounding can also settle into a cycle of a few dozen (the DCM SEPIC of the benchmarks: 52
+  // periods, so 32 periods kept were too few).
 
-  static constexpr std::size_t kRecurrenceDepth = 32;
+  static constexpr std::size_t kRecurrenceDepth = 64;
   // Periods are kept once the state changes by less than this (relative to its scale) per
   // period: rounding cycles live far below it, and above it keeping them would only cost time.
   static constexpr double kRecurrenceWatch = 1e-12;
