@@ -236,6 +236,7 @@ steady_state_periods = 3
 output_signal = "out.v"
 settling_band = 0.01
 cache = false
+reuse_piece_operators = false
 energy_accounting = false
 
 [record]
@@ -346,6 +347,7 @@ file = "traces/all.h5"
   EXPECT_EQ(s.output_signal, "out.v");
   EXPECT_EQ(s.settling_band, 0.01);
   EXPECT_FALSE(s.cache);
+  EXPECT_FALSE(s.reuse_piece_operators);
   EXPECT_FALSE(s.energy_accounting);
   EXPECT_EQ(s.recorded_signals, (std::vector<std::string>{"L1.i", "out.v", "S1.v", "D1.i"}));
 

@@ -58,6 +58,7 @@ void read_run_steady_state(const TableReader& run, const Circuit& circuit, Simul
       run.boolean_or("replay_repeating_periods", o.replay_repeating_periods);
   o.repeat_recurring_periods =
       run.boolean_or("repeat_recurring_periods", o.repeat_recurring_periods);
+  o.reuse_piece_operators = run.boolean_or("reuse_piece_operators", o.reuse_piece_operators);
   o.energy_accounting = run.boolean_or("energy_accounting", o.energy_accounting);
 }
 
@@ -237,6 +238,7 @@ SimulationOptions read_run(const toml::table* table, const std::string& file,
                    "cache",
                    "replay_repeating_periods",
                    "repeat_recurring_periods",
+                   "reuse_piece_operators",
                    "energy_accounting",
                    "ode_stepper",
                    "ode_relative_tolerance",
