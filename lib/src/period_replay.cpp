@@ -1,66 +1,8 @@
 #include "detail/period_replay.hpp"
 
+#include "detail/piece_forms.hpp"
+
 namespace pulsewise::detail {
-
-namespace {
-
-// T_k, k = 0..K: column i of T_k is term k of the series of exp(M h s) e_i, so that term k of
-// exp(M h s) z is T_k z. The series and its stopping test are those of TaylorPiece; the piece
-// engine chose h within the configuration's sub-step bound, so each series converges.
-bool unit_terms(const PatternData& pd, double h, int n, std::vector<Eigen::MatrixXd>& terms) {
-  TaylorPiece piece(n);
-  Eigen::VectorXd unit = Eigen::VectorXd::Zero(n);
-  terms.clear();
-  for (int i = 0; i < n; ++i) {
-    unit.setZero();
-    unit[i] = 1.0;
-    if (!piece.expand(pd.M, unit, h, pd.dynamic_rows)) return false;
-    while (static_cast<int>(terms.size()) <= piece.order())
-      terms.push_back(Eigen::MatrixXd::Zero(n, n));
-    for (int k = 0; k <= piece.order(); ++k) terms[k].col(i) = piece.terms().col(k);
-  }
-  return true;
-}
-
-// Row k: coefficient k of the polynomial c . z(s) as a linear form in the start state.
-Eigen::MatrixXd polynomial_rows(const Eigen::RowVectorXd& c,
-                                const std::vector<Eigen::MatrixXd>& t) {
-  Eigen::MatrixXd rows(static_cast<Eigen::Index>(t.size()), c.size());
-  for (std::size_t k = 0; k < t.size(); ++k) rows.row(static_cast<Eigen::Index>(k)) = c * t[k];
-  return rows;
-}
-
-// The symmetric W with integral over s in [0, 1] of a(s) b(s) = z^T W z, where a and b have the
-// polynomial rows pa and pb: sum over k, l of pa_k^T pb_l / (k + l + 1).
-Eigen::MatrixXd product_form(const Eigen::MatrixXd& pa, const Eigen::MatrixXd& pb) {
-  const Eigen::Index terms = pa.rows();
-  Eigen::MatrixXd weighted = Eigen::MatrixXd::Zero(terms, pb.cols());
-  for (Eigen::Index k = 0; k < terms; ++k)
-    for (Eigen::Index l = 0; l < pb.rows(); ++l)
-      weighted.row(k) += pb.row(l) / static_cast<double>(k + l + 1);
-  const Eigen::MatrixXd w = pa.transpose() * weighted;
-  return 0.5 * (w + w.transpose());
-}
-
-Eigen::RowVectorXd dense(const SparseRow& row, int n) {
-  Eigen::RowVectorXd out = Eigen::RowVectorXd::Zero(n);
-  for (const SparseRow::Entry& e : row.entries) out[e.index] = e.value;
-  return out;
-}
-
-// Value and slope at both ends of the piece, from the polynomial rows.
-void end_rows(const Eigen::MatrixXd& p, Eigen::MatrixXd& ends, Eigen::Index at) {
-  ends.row(at) = p.row(0);
-  ends.row(at + 1) = p.colwise().sum();
-  ends.row(at + 2).setZero();
-  ends.row(at + 3).setZero();
-  for (Eigen::Index k = 1; k < p.rows(); ++k) {
-    if (k == 1) ends.row(at + 2) = p.row(1);
-    ends.row(at + 3) += static_cast<double>(k) * p.row(k);
-  }
-}
-
-}  // namespace
 
 void PeriodReplay::clear() {
   steps_.clear();
@@ -143,9 +85,7 @@ void PeriodReplay::add_forms(const PatternData& pd, const Piece& pc,
   };
   for (int j = 0; j < signals_; ++j) {
     const Eigen::MatrixXd& p = pc.polynomial[j];
-    Eigen::RowVectorXd mean = Eigen::RowVectorXd::Zero(n);
-    for (Eigen::Index k = 0; k < p.rows(); ++k) mean += p.row(k) / static_cast<double>(k + 1);
-    linear_.row(j) += pc.h * mean * to_piece;
+    linear_.row(j) += pc.h * mean_row(p) * to_piece;
     add_form(j, product_form(p, p), pc.h);
   }
   for (int k = 0; k < energies_; ++k) {

@@ -2,8 +2,8 @@
 
 #include <algorithm>
 #include <cmath>
-#include <limits>
 
+#include "detail/piece_forms.hpp"
 #include "detail/polynomial.hpp"
 
 namespace pulsewise::detail {
@@ -11,18 +11,10 @@ namespace pulsewise::detail {
 namespace {
 
 constexpr int kMaxOrder = TaylorPiece::kMaxOrder;
-constexpr double kUnitRoundoff = std::numeric_limits<double>::epsilon() / 2;
 constexpr int kValueForms = 5;  // value and slope at s = 0 and 1, h times the mean
 
 constexpr int linear_size(int d) { return d + 1; }
 constexpr int quadratic_size(int d) { return d * (d + 1) / 2 + d + 1; }
-
-// Dense copy of a sparse row over z.
-std::vector<double> dense(const SparseRow& row, int n) {
-  std::vector<double> out(n, 0.0);
-  for (const SparseRow::Entry& e : row.entries) out[e.index] = e.value;
-  return out;
-}
 
 // A folded linear form f . [x; 1] and a folded quadratic form (see the header) at x.
 template <int D>
@@ -47,72 +39,42 @@ void coefficients(const double* forms, const double* x, int order, double* a) {
   for (int k = 0; k <= order; ++k) a[k] = linear<D>(forms + k * linear_size(D), x);
 }
 
-// Appends the folded form of the linear functional r . z: its moving coefficients, then the
-// static entries' part.
-void append_linear(const double* r, int moving, int n, const std::vector<double>& fixed,
-                   std::vector<double>& out) {
-  double constant = 0.0;
-  for (int j = moving; j < n; ++j) constant += r[j] * fixed[j - moving];
-  out.insert(out.end(), r, r + moving);
-  out.push_back(constant);
-}
-
 }  // namespace
 
-PieceOperators::Poly PieceOperators::functional_poly(const double* row) const {
-  Poly p(static_cast<std::size_t>((order_ + 1) * n_), 0.0);
-  for (int k = 0; k <= order_; ++k) {
-    const double* term = terms_.data() + k * n_ * n_;
-    for (int i = 0; i < n_; ++i)
-      if (row[i] != 0.0)
-        for (int j = 0; j < n_; ++j) p[k * n_ + j] += row[i] * term[i * n_ + j];
-  }
-  return p;
+void PieceOperators::fold_linear(const Eigen::RowVectorXd& r, std::vector<double>& out) const {
+  double constant = 0.0;
+  for (int j = moving_; j < n_; ++j) constant += r[j] * static_[j - moving_];
+  for (int j = 0; j < moving_; ++j) out.push_back(r[j]);
+  out.push_back(constant);
 }
 
-void PieceOperators::add_poly(const Poly& p, std::vector<double>& out) const {
-  for (int k = 0; k <= order_; ++k) append_linear(p.data() + k * n_, moving_, n_, static_, out);
+void PieceOperators::fold_polynomial(const Eigen::MatrixXd& p, std::vector<double>& out) const {
+  for (Eigen::Index k = 0; k < p.rows(); ++k) fold_linear(p.row(k), out);
 }
 
-void PieceOperators::add_value_rows(const Poly& p, double h_mean_weight) {
-  std::vector<double> rows(static_cast<std::size_t>(kValueForms * n_), 0.0);
-  for (int k = 0; k <= order_; ++k)
-    for (int j = 0; j < n_; ++j) {
-      const double c = p[k * n_ + j];
-      if (k == 0) rows[j] = c;
-      rows[n_ + j] += c;
-      if (k == 1) rows[2 * n_ + j] = c;
-      rows[3 * n_ + j] += k * c;
-      rows[4 * n_ + j] += h_mean_weight * poly::kReciprocal.value[k] * c;
-    }
-  for (int m = 0; m < kValueForms; ++m)
-    append_linear(rows.data() + m * n_, moving_, n_, static_, value_forms_);
-}
-
-// The folded form of z^T S z with S = weight * sum_{k,l} a_k^T b_l / (k + l + 1), the integral
-// over s in [0, 1] of the product of two functionals with polynomial rows a_k and b_k.
-void PieceOperators::add_quadratic(const Poly& a, const Poly& b, double weight,
-                                   std::vector<double>& out) const {
-  const int n = n_, d = moving_;
-  std::vector<double> s(static_cast<std::size_t>(n * n), 0.0);
-  for (int k = 0; k <= order_; ++k)
-    for (int l = 0; l <= order_; ++l) {
-      const double w = weight * poly::kReciprocal.value[k + l];
-      for (int i = 0; i < n; ++i)
-        for (int j = 0; j < n; ++j) s[i * n + j] += w * a[k * n + i] * b[l * n + j];
-    }
-  const auto sym = [&](int i, int j) { return s[i * n + j] + s[j * n + i]; };
+// For symmetric w: the products x_i x_j (i <= j) take w_ii or 2 w_ij, the moving entries the
+// cross terms with the static ones, the constant the static block.
+void PieceOperators::fold_quadratic(const Eigen::MatrixXd& w, double weight,
+                                    std::vector<double>& out) const {
+  const int d = moving_;
   for (int i = 0; i < d; ++i)
-    for (int j = i; j < d; ++j) out.push_back(i == j ? s[i * n + i] : sym(i, j));
+    for (int j = i; j < d; ++j) out.push_back(weight * (i == j ? w(i, i) : 2 * w(i, j)));
   for (int i = 0; i < d; ++i) {
     double v = 0.0;
-    for (int j = d; j < n; ++j) v += sym(i, j) * static_[j - d];
-    out.push_back(v);
+    for (int j = d; j < n_; ++j) v += 2 * w(i, j) * static_[j - d];
+    out.push_back(weight * v);
   }
   double constant = 0.0;
-  for (int i = d; i < n; ++i)
-    for (int j = d; j < n; ++j) constant += s[i * n + j] * static_[i - d] * static_[j - d];
-  out.push_back(constant);
+  for (int i = d; i < n_; ++i)
+    for (int j = d; j < n_; ++j) constant += w(i, j) * static_[i - d] * static_[j - d];
+  out.push_back(weight * constant);
+}
+
+void PieceOperators::add_value_forms(const Eigen::MatrixXd& p, double h_mean_weight) {
+  Eigen::MatrixXd ends(4, n_);
+  end_rows(p, ends, 0);
+  for (Eigen::Index m = 0; m < ends.rows(); ++m) fold_linear(ends.row(m), value_forms_);
+  fold_linear(h_mean_weight * mean_row(p), value_forms_);
 }
 
 bool PieceOperators::build(const PatternData& data, double h, const double* z,
@@ -120,81 +82,51 @@ bool PieceOperators::build(const PatternData& data, double h, const double* z,
   n_ = layout.size;
   moving_ = data.dynamic_rows;
   static_.assign(z + moving_, z + n_);
-  // P_0 = I; P_k = (h / k) M P_{k-1}, whose rows past the moving block are zero. The terms are
-  // summed until two consecutive ones fall below the unit roundoff relative to the largest
-  // (infinity norms): the stopping test of the piece's own series, for every start state.
-  const auto nn = static_cast<std::size_t>(n_ * n_);
-  terms_.assign(nn, 0.0);
-  for (int i = 0; i < n_; ++i) terms_[i * n_ + i] = 1.0;
-  double sum_norm = 1.0, previous = 1.0;
-  order_ = -1;
-  for (int k = 1; k <= kMaxOrder && order_ < 0; ++k) {
-    terms_.resize((k + 1) * nn, 0.0);
-    const double* last = terms_.data() + (k - 1) * nn;
-    double* next = terms_.data() + k * nn;
-    const int inner = k == 1 ? n_ : moving_;  // past k = 1 only the moving rows are non-zero
-    double norm = 0.0;
-    for (int i = 0; i < moving_; ++i) {
-      double row_sum = 0.0;
-      for (int j = 0; j < n_; ++j) {
-        double v = 0.0;
-        for (int m = 0; m < inner; ++m) v += data.M(i, m) * last[m * n_ + j];
-        next[i * n_ + j] = h / k * v;
-        row_sum += std::abs(next[i * n_ + j]);
-      }
-      norm = std::max(norm, row_sum);
-    }
-    sum_norm = std::max(sum_norm, norm);
-    if (norm + previous <= kUnitRoundoff * sum_norm) order_ = k;
-    previous = norm;
-  }
-  if (order_ < 0) return false;
-  build_forms(data, h, layout);
-  terms_.clear();
-  terms_.shrink_to_fit();
+  std::vector<Eigen::MatrixXd> terms;
+  if (!unit_terms(data, h, n_, terms)) return false;
+  order_ = static_cast<int>(terms.size()) - 1;
+  build_forms(data, h, layout, terms);
   return true;
 }
 
-void PieceOperators::build_forms(const PatternData& data, double h, const KernelLayout& layout) {
-  const auto nn = static_cast<std::size_t>(n_ * n_);
+void PieceOperators::build_forms(const PatternData& data, double h, const KernelLayout& layout,
+                                 const std::vector<Eigen::MatrixXd>& terms) {
+  Eigen::MatrixXd transition = Eigen::MatrixXd::Zero(n_, n_);
+  for (const Eigen::MatrixXd& t : terms) transition += t;
   end_.clear();
-  for (int i = 0; i < moving_; ++i) {
-    std::vector<double> row(n_, 0.0);
-    for (int k = 0; k <= order_; ++k)
-      for (int j = 0; j < n_; ++j) row[j] += terms_[k * nn + i * n_ + j];
-    append_linear(row.data(), moving_, n_, static_, end_);
-  }
+  for (int i = 0; i < moving_; ++i) fold_linear(transition.row(i), end_);
   value_forms_.clear();
   squares_.clear();
   signal_polys_.clear();
   for (int j = 0; j < layout.signals; ++j) {
-    const Poly p = functional_poly(data.recorded.row(j).data());
-    add_value_rows(p, h);
-    add_quadratic(p, p, h, squares_);
-    add_poly(p, signal_polys_);
+    const Eigen::MatrixXd p = polynomial_rows(data.recorded.row(j), terms);
+    add_value_forms(p, h);
+    fold_quadratic(product_form(p, p), h, squares_);
+    fold_polynomial(p, signal_polys_);
   }
   inductor_polys_.clear();
   for (std::size_t k = 0; k < layout.inductor_states.size(); ++k) {
     if (layout.inductor_recorded[k] >= 0) continue;
-    std::vector<double> unit(n_, 0.0);
-    unit[layout.inductor_states[k]] = 1.0;
-    const Poly p = functional_poly(unit.data());
-    add_value_rows(p, 0.0);
-    add_poly(p, inductor_polys_);
+    const Eigen::MatrixXd p =
+        polynomial_rows(Eigen::RowVectorXd::Unit(n_, layout.inductor_states[k]), terms);
+    add_value_forms(p, 0.0);
+    fold_polynomial(p, inductor_polys_);
   }
   energies_.clear();
   if (layout.energy_accounting)
     for (std::size_t k = 0; k < layout.energy_roles.size(); ++k) {
       const PowerForm& form = data.power_forms[k];
-      add_quadratic(functional_poly(dense(form.a, n_).data()),
-                    functional_poly(dense(form.b, n_).data()), h * form.weight, energies_);
+      fold_quadratic(product_form(polynomial_rows(dense(form.a, n_), terms),
+                                  polynomial_rows(dense(form.b, n_), terms)),
+                     h * form.weight, energies_);
     }
   event_polys_.clear();
   event_bounds_.clear();
   const int l = linear_size(moving_);
   for (std::size_t d = 0; d < layout.diode_bits.size(); ++d) {
     const std::size_t at = event_polys_.size();
-    add_poly(functional_poly(data.events.row(static_cast<Eigen::Index>(d)).data()), event_polys_);
+    fold_polynomial(polynomial_rows(data.events.row(static_cast<Eigen::Index>(d)), terms),
+                    event_polys_);
     std::vector<double> bound(l, 0.0);
     for (int k = 1; k <= order_; ++k)
       for (int j = 0; j < l; ++j) bound[j] += std::abs(event_polys_[at + k * l + j]);

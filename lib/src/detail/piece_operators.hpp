@@ -6,11 +6,11 @@
 // such as the on-time of a DCM period from one gate edge to the next, then costs a few short dot
 // products instead of its series, its moments and its Gram block.
 //
-// The operators come from the Taylor terms P_k = (M h)^k / k! of the whole matrix, summed with
-// the stopping test of TaylorPiece (Al-Mohy and Higham, SIAM J. Sci. Comput. 33(2), 2011) applied
-// to the infinity norm of the terms, so they are as accurate as a piece's own series: results
-// agree with it to rounding, not to the bit. The integrals of products are the integrals of
-// products of polynomials on [0, 1], sum_{k,l} a_k b_l / (k + l + 1).
+// The operators come from the series of exp(M h s) on unit vectors (detail/piece_forms.hpp,
+// shared with the replay of repeating periods), summed with the stopping test of TaylorPiece
+// (Al-Mohy and Higham, SIAM J. Sci. Comput. 33(2), 2011), so they are as accurate as a piece's
+// own series: results agree with it to rounding, not to the bit. The integrals of products are
+// the integrals of products of polynomials on [0, 1], sum_{k,l} a_k b_l / (k + l + 1).
 //
 // A device event inside the piece ends it early, at a time that depends on z0; operators cannot
 // give that. apply() first proves from the device conditions' own polynomials that none of them
@@ -43,15 +43,15 @@ class PieceOperators {
   int order() const { return order_; }
 
  private:
-  // Polynomial rows of a linear functional r over z: row k (n entries) is r P_k.
-  using Poly = std::vector<double>;
-  Poly functional_poly(const double* row) const;
-  // The folded forms (see fold_linear, fold_quadratic) of a functional's value and slope at
-  // s = 0 and s = 1 and of h_mean_weight times its mean.
-  void add_value_rows(const Poly& p, double h_mean_weight);
-  void build_forms(const PatternData& data, double h, const KernelLayout& layout);
-  void add_poly(const Poly& p, std::vector<double>& out) const;
-  void add_quadratic(const Poly& a, const Poly& b, double weight, std::vector<double>& out) const;
+  // Appends the folded form (see below) of a linear form r . z, of the quadratic form
+  // weight * z^T w z, of every row of polynomial rows p, and of a functional's value and slope
+  // at s = 0 and s = 1 and h_mean_weight times its mean.
+  void fold_linear(const Eigen::RowVectorXd& r, std::vector<double>& out) const;
+  void fold_quadratic(const Eigen::MatrixXd& w, double weight, std::vector<double>& out) const;
+  void fold_polynomial(const Eigen::MatrixXd& p, std::vector<double>& out) const;
+  void add_value_forms(const Eigen::MatrixXd& p, double h_mean_weight);
+  void build_forms(const PatternData& data, double h, const KernelLayout& layout,
+                   const std::vector<Eigen::MatrixXd>& terms);
   template <int D>
   bool apply_fixed(const KernelLayout& layout, const PieceTask& task,
                    const PieceSinks& sinks) const;
@@ -63,7 +63,6 @@ class PieceOperators {
   // hands back a piece whose static entries differ from them.
   int n_ = 0, moving_ = 0, order_ = 0;
   std::vector<double> static_;  // z past the moving block at build()
-  std::vector<double> terms_;   // P_k, k = 0..order_, each n x n row-major (build only)
   std::vector<double> end_;     // per moving entry: the linear form of its end value
   // Per recorded signal, then per inductor that is not recorded: kValueForms linear forms.
   std::vector<double> value_forms_;
