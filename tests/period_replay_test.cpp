@@ -265,8 +265,8 @@ TEST(PeriodReplay, GivesUpAtTheFirstDiodeTurnOffWhenTheStartUpEndsInDcm) {
 // The DCM boost of test_circuits.hpp with a 10 uF output capacitor: the output settles within
 // about 1 000 periods (R C = 120 periods), and from about period 1 300 on every period starts
 // from the state of the period before, to the last bit.
-Circuit fast_settling_dcm_boost(bool with_load_step) {
-  Circuit c = test::dcm_boost(test::pwm(200e3, 0.3), 10e-6);
+Circuit fast_settling_dcm_boost(bool with_load_step, Waveform input = Waveform::constant(12.0)) {
+  Circuit c = test::dcm_boost(test::pwm(200e3, 0.3), 10e-6, std::move(input));
   if (with_load_step) {
     // A second 60 ohm load joins at 12.5 ms, period 2 500, long after the steady state.
     GateSchedule step;
@@ -309,19 +309,58 @@ TEST(PeriodReplay, PeriodsOfACycleOfRoundedStatesRepeatInTurn) {
   expect_identical_run(repeated, computed);
 }
 
-// The same boost with a load step at period 2 500: its gates do not repeat (a schedule drives
-// one switch), so no period may be taken from the one before, however steady the state.
+// The same boost with a load step at period 2 500: until then its gates do not repeat (a
+// schedule will change one switch), so no period may be taken from the one before, however
+// steady the state. Without the step the same 2 500 periods repeat from about period 1 300.
 TEST(PeriodReplay, NoPeriodRepeatsWhileAGateScheduleLiesAhead) {
   const Circuit circuit = fast_settling_dcm_boost(true);
+  EXPECT_EQ(run(circuit, 2500, true).repeated_periods, 0);
+  EXPECT_GE(run(fast_settling_dcm_boost(false), 2500, true).repeated_periods, 1000);
   const RunSummary replayed = run(circuit, 3000, true);
   const RunSummary direct = run(circuit, 3000, false);
-  EXPECT_EQ(replayed.repeated_periods, 0);
   expect_same_run(circuit, replayed, direct);
   // The step halves the load resistance: K = 2L/(R T) doubles and the ideal DCM ratio
   // M = (1 + sqrt(1 + 4 D^2 / K)) / 2 falls from 1.77 to 1.46 (Erickson & Maksimovic,
   // Fundamentals of Power Electronics, 2nd ed., ch. 5), so the output must have dropped.
   const RunSummary before_step = run(circuit, 2400, true);
   EXPECT_LT(output_average(replayed), 0.9 * output_average(before_step));
+}
+
+// A run of `periods` in which at least 1 000 periods, none before period `first`, are repeated,
+// and which ends with every figure, to the bit, of the run that computes each period (and to
+// rounding of the piece engine alone). Returns the run with the repeat.
+RunSummary expect_repeats_only_from(const Circuit& circuit, long periods, long first) {
+  const RunSummary repeated = run_with_repeat(circuit, periods, true);
+  const RunSummary computed = run_with_repeat(circuit, periods, false);
+  EXPECT_EQ(computed.repeated_periods, 0);
+  EXPECT_GE(repeated.repeated_periods, 1000);
+  EXPECT_LE(repeated.repeated_periods, periods - first);
+  expect_identical_run(repeated, computed);
+  expect_same_run(circuit, repeated, run(circuit, periods, false));
+  return repeated;
+}
+
+// Once the schedule has made its last change, the periods pose the same problem again whenever
+// they start in the same state: they repeat from the new steady state on, and every figure is
+// still the one each period computed gives, to the bit. None may repeat before period 2 502
+// (the second period after the step), and the new steady state takes hundreds more.
+TEST(PeriodReplay, PeriodsRepeatAgainOnceTheLastScheduleChangeIsBehind) {
+  expect_repeats_only_from(fast_settling_dcm_boost(true), 6000, 2502);
+}
+
+// The same for a source: the input sags from 12 V to 10 V between 12.5 and 12.6 ms (periods
+// 2 500 to 2 520) and stays there. The periods after the table's last point repeat once steady;
+// none before period 2 522, the second after that point.
+TEST(PeriodReplay, PeriodsRepeatAgainOnceTheLastSourceBreakpointIsBehind) {
+  const Circuit circuit = fast_settling_dcm_boost(
+      false, Waveform::piecewise_linear({{12.5e-3, 12.0}, {12.6e-3, 10.0}}));
+  const RunSummary repeated = expect_repeats_only_from(circuit, 6000, 2522);
+  // The circuit is linear, and its devices switch where a current or a voltage changes sign
+  // (zero forward drop), so its periodic steady state is homogeneous of degree one in the input
+  // (homogeneity of linear circuits, common practice, no source): both steady outputs, reached
+  // to the last bit, must stand in the ratio 10/12 to rounding.
+  const double before = output_average(run(circuit, 2400, true));
+  EXPECT_NEAR(output_average(repeated) / before, 10.0 / 12.0, 1e-12);
 }
 
 // Counts what a run hands to its observer and keeps the last period's metrics; `wants_pieces`

@@ -22,9 +22,10 @@ inline PwmModulator pwm(double frequency_hz, double duty, std::string name = "pw
 // 2nd ed., ch. 5). Devices 10 mOhm on, open off; ideal inductor and capacitor. The ratio does
 // not depend on the output capacitance, which sets how fast the output settles.
 inline Circuit dcm_boost(PwmModulator modulator = pwm(200e3, 0.3),
-                         double output_capacitance_f = 47e-6) {
+                         double output_capacitance_f = 47e-6,
+                         Waveform input = Waveform::constant(12.0)) {
   Circuit c;
-  c.add_voltage_source("Vin", "in", "0", Waveform::constant(12.0))
+  c.add_voltage_source("Vin", "in", "0", std::move(input))
       .add_inductor("L1", "in", "sw", 10e-6)
       .add_switch("S1", "sw", "0", "pwm", SwitchOptions{10e-3, kOpen})
       .add_diode("D1", "sw", "out", DiodeOptions{10e-3, 0.0, kOpen})

@@ -39,16 +39,29 @@ GateBank::GateBank(const Circuit& circuit, const std::vector<int>& devices,
     switch_mask_ |= DevicePattern{1} << bit;
   }
   // Edges inside a run period can belong to the gate period before it (phase shifts), so the
-  // offsets repeat from one period after the longest duty ramp.
-  if (run_period_s_ > 0) periodic_from_ = 0;
+  // offsets repeat from one period after the longest duty ramp. A schedule holds its last state
+  // for ever: it stops shaping the periods from the second period that begins after its last
+  // change (one period of margin, so that a change on a period boundary cannot fall inside).
+  if (!(run_period_s_ > 0)) return;
+  periodic_from_ = 0;
   for (const auto& [bit, gate] : switch_gate_) {
     const Gate& g = gates_[gate];
-    if (g.kind == Kind::kSchedule || g.period_s != run_period_s_) {
+    if (g.kind == Kind::kSchedule) {
+      if (!g.schedule->changes.empty())
+        periodic_from_ =
+            std::max(periodic_from_, first_period_after(g.schedule->changes.back().first));
+      continue;
+    }
+    if (g.period_s != run_period_s_) {
       periodic_from_ = -1;
       break;
     }
     periodic_from_ = std::max(periodic_from_, g.soft_start.periods + 1);
   }
+}
+
+long GateBank::first_period_after(double t_s) const {
+  return static_cast<long>(std::floor(std::max(t_s, 0.0) / run_period_s_)) + 2;
 }
 
 double GateBank::next_edge_in_period(long period_index, long double origin, double tau) const {

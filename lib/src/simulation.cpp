@@ -176,6 +176,8 @@ struct Simulation::Impl {
   std::vector<int> inductor_recorded;        // recorded index of each inductor current, or -1
   // Every source is constant: z keeps the inputs of the start, and no breakpoint ever comes.
   bool inputs_constant = false;
+  // The first period from which no source changes any more (-1: never, a sinusoid).
+  long inputs_settled_from = -1;
   // Replay of a repeating period (detail/period_replay.hpp): the steps of this period and of
   // the one before, whether this period can be one (no state event so far), and whether the
   // next period is replayed.
@@ -286,9 +288,19 @@ struct Simulation::Impl {
     }
     n_r = static_cast<int>(ramp_inputs.size());
     inputs_constant = true;
-    for (int el : model.input_elements())
-      inputs_constant &=
-          model.circuit().elements()[el].waveform.kind() == Waveform::Kind::kConstant;
+    double constant_from_s = -kInf;
+    for (int el : model.input_elements()) {
+      const Waveform& w = model.circuit().elements()[el].waveform;
+      inputs_constant &= w.kind() == Waveform::Kind::kConstant;
+      constant_from_s = std::max(constant_from_s, w.constant_from_s());
+    }
+    // As a schedule in the gate bank: from the second period that begins after the last
+    // breakpoint, with a period of margin against a breakpoint on a period boundary.
+    inputs_settled_from =
+        inputs_constant ? 0
+        : std::isinf(constant_from_s)
+            ? -1
+            : static_cast<long>(std::floor(std::max(constant_from_s, 0.0) / period_s)) + 2;
     n_z = n_x + n_u + n_r;
     for (std::size_t d = 0; d < model.devices().size(); ++d)
       if (model.circuit().elements()[model.devices()[d]].kind == ElementKind::kDiode)
@@ -1516,13 +1528,13 @@ struct Simulation::Impl {
 
   // ---- repeat of periods whose states recur -------------------------------------------------
   //
-  // With constant sources and periodic gates a period's results depend only on where it starts
-  // (PeriodStart). Near the steady state the start of each period is kept, with its results, for
-  // the last kRecurrenceDepth periods. A period that ends, to the bit, where a kept period began
-  // closes a cycle: every later period poses the same problem as a period of the cycle, and its
-  // results are that period's. A steady state reached to the last bit is a cycle of one period;
-  // rounding can also settle into a cycle of a few dozen (the DCM SEPIC of the benchmarks: 52
-  // periods, so 32 periods kept were too few).
+  // Once the sources no longer change and the gates repeat with the period (periods_repeat_from),
+  // a period's results depend only on where it starts (PeriodStart). Near the steady state the
+  // start of each period is kept, with its results, for the last kRecurrenceDepth periods. A period
+  // that ends, to the bit, where a kept period began closes a cycle: every later period poses the
+  // same problem as a period of the cycle, and its results are that period's. A steady state
+  // reached to the last bit is a cycle of one period; rounding can also settle into a cycle of a
+  // few dozen (the DCM SEPIC of the benchmarks: 52 periods, so 32 periods kept were too few).
 
   static constexpr std::size_t kRecurrenceDepth = 64;
   // Periods are kept once the state changes by less than this (relative to its scale) per
@@ -1564,12 +1576,18 @@ struct Simulation::Impl {
            std::memcmp(s.z.data(), z.data(), sizeof(double) * static_cast<std::size_t>(n_z)) == 0;
   }
 
+  // Whether the periods from k on pose the same problem whenever they start in the same state:
+  // the gates repeat with the period and no source changes any more. A run with a load step or
+  // a line sag qualifies once the last change is behind it.
+  bool periods_repeat_from(long k) const {
+    return inputs_settled_from >= 0 && k >= inputs_settled_from && gates->periodic_at(k);
+  }
+
   // After computed period k: keep it, and look for a kept period that began where k ended.
-  // Whether the periods from k on pose the same problem whenever they start in the same state.
   // The ODE path is left out: its steps depend on the absolute time.
   bool repeat_allowed(long k) const {
-    return options.repeat_recurring_periods && !piece_observer && !nonlinear && inputs_constant &&
-           gates->periodic_at(k);
+    return options.repeat_recurring_periods && !piece_observer && !nonlinear &&
+           periods_repeat_from(k);
   }
 
   void keep_period_record(long k) {
@@ -1628,7 +1646,7 @@ struct Simulation::Impl {
   // period, and nothing needs the pieces themselves.
   bool replay_allowed(long k) const {
     return options.replay_repeating_periods && options.cache && !piece_observer && !nonlinear &&
-           inputs_constant && gates->periodic_at(k);
+           periods_repeat_from(k);
   }
 
   // After a period of the piece engine: the next period is replayed when this one had no state

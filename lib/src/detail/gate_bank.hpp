@@ -34,7 +34,9 @@ class GateBank {
   // reused (next_edge_in_period()), the pattern just after each of them and at the period's
   // start is found once with them: at those offsets no gate is evaluated again.
   DevicePattern switch_pattern_in_period(long period_index, long double origin, double tau) const;
-  // True when the edges of run period `period_index` are those of every later period.
+  // True when the edges of run period `period_index` are those of every later period: every
+  // switch gate repeats with the run period, its duty ramp has ended, and any schedule has made
+  // its last change.
   bool periodic_at(long period_index) const {
     return periodic_from_ >= 0 && period_index >= periodic_from_;
   }
@@ -54,13 +56,15 @@ class GateBank {
   long double next_edge(const Gate& g, long double t) const;
   double duty_of_period(const Gate& g, long k) const;
   double just_after(double t) const;
+  // The second run period that begins after t_s (see the constructor).
+  long first_period_after(double t_s) const;
 
   std::vector<Gate> gates_;
   std::vector<std::pair<int, int>> switch_gate_;  // (device bit, gate index)
   DevicePattern switch_mask_ = 0;
   double resolution_s_;
   // The reused offsets of next_edge_in_period(): periodic_from_ is the first run period from
-  // which they hold (-1: never; a schedule drives a switch, or a gate runs at another period).
+  // which they hold (-1: never, a gate runs at another period).
   double run_period_s_ = 0.0;
   long periodic_from_ = -1;
   mutable bool offsets_found_ = false;
