@@ -2,7 +2,6 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
-#include <limits>
 #include <numbers>
 
 #include "pulsewise/pulsewise.hpp"
@@ -25,23 +24,6 @@ TEST(Waveform, StepIsRightContinuous) {
   const Waveform w = Waveform::step(1e-3, 0.0, 5.0);
   EXPECT_EQ(w.value(0.999e-3), 0.0);
   EXPECT_EQ(w.value(1e-3), 5.0);
-}
-
-// From constant_from_s() on, value and slope never change again (the periods after it may
-// repeat, period_replay_test.cpp); a sinusoid never settles, whatever its amplitude.
-TEST(Waveform, SettlesAfterItsLastBreakpointAndNeverForASinusoid) {
-  const Waveform table = Waveform::piecewise_linear({{1.0, 2.0}, {3.0, 6.0}, {4.0, 5.0}});
-  EXPECT_EQ(table.constant_from_s(), 4.0);
-  EXPECT_EQ(table.next_breakpoint_after(table.constant_from_s()),
-            std::numeric_limits<double>::infinity());
-  EXPECT_EQ(table.slope(4.0), 0.0);
-  EXPECT_EQ(table.value(4.0), table.value(1e9));
-  EXPECT_EQ(Waveform::step(2e-3, 1.0, 3.0).constant_from_s(), 2e-3);
-  EXPECT_EQ(Waveform::constant(5.0).constant_from_s(), -std::numeric_limits<double>::infinity());
-  EXPECT_EQ(Waveform::sine(12.0, 0.0, 50.0).constant_from_s(),
-            std::numeric_limits<double>::infinity());
-  EXPECT_EQ(Waveform::rectified_sine(0.0, 325.0, 50.0).constant_from_s(),
-            std::numeric_limits<double>::infinity());
 }
 
 TEST(Waveform, RectifiedSineBreaksAtEveryZeroCrossingAndFlipsItsSlope) {

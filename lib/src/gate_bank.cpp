@@ -39,17 +39,16 @@ GateBank::GateBank(const Circuit& circuit, const std::vector<int>& devices,
     switch_mask_ |= DevicePattern{1} << bit;
   }
   // Edges inside a run period can belong to the gate period before it (phase shifts), so the
-  // offsets repeat from one period after the longest duty ramp. A schedule holds its last state
-  // for ever: it stops shaping the periods from the second period that begins after its last
-  // change (one period of margin, so that a change on a period boundary cannot fall inside).
+  // offsets repeat from one period after the longest duty ramp. A schedule holds its state
+  // between its changes, so it only breaks the periods around each change.
   if (!(run_period_s_ > 0)) return;
   periodic_from_ = 0;
   for (const auto& [bit, gate] : switch_gate_) {
     const Gate& g = gates_[gate];
     if (g.kind == Kind::kSchedule) {
-      if (!g.schedule->changes.empty())
-        periodic_from_ =
-            std::max(periodic_from_, first_period_after(g.schedule->changes.back().first));
+      for (const auto& change : g.schedule->changes)
+        change_periods_.push_back(
+            static_cast<long>(std::floor(std::max(change.first, 0.0) / run_period_s_)));
       continue;
     }
     if (g.period_s != run_period_s_) {
@@ -58,23 +57,34 @@ GateBank::GateBank(const Circuit& circuit, const std::vector<int>& devices,
     }
     periodic_from_ = std::max(periodic_from_, g.soft_start.periods + 1);
   }
+  std::sort(change_periods_.begin(), change_periods_.end());
 }
 
-long GateBank::first_period_after(double t_s) const {
-  return static_cast<long>(std::floor(std::max(t_s, 0.0) / run_period_s_)) + 2;
+long GateBank::quiet_until(long period_index) const {
+  if (periodic_from_ < 0 || period_index < periodic_from_) return -1;
+  // The first change in period_index - 1 or later: inside the margin, or the stretch's end.
+  const auto next =
+      std::lower_bound(change_periods_.begin(), change_periods_.end(), period_index - 1);
+  if (next == change_periods_.end()) return kForever;
+  return *next <= period_index + 1 ? -1 : *next - 2;
 }
 
 double GateBank::next_edge_in_period(long period_index, long double origin, double tau) const {
-  if (periodic_from_ < 0 || period_index < periodic_from_) return next_edge_after(origin, tau);
-  find_periodic_offsets(origin);
+  if (!find_periodic_offsets(period_index, origin)) return next_edge_after(origin, tau);
   const double slack = std::max<double>(resolution_s_, 8 * std::abs(origin + tau) * 1e-19L);
   for (double e : periodic_offsets_)
     if (e > tau + slack) return e;
   return kNever;
 }
 
-void GateBank::find_periodic_offsets(long double origin) const {
-  if (offsets_found_) return;
+bool GateBank::find_periodic_offsets(long period_index, long double origin) const {
+  if (period_index >= offsets_begin_ && period_index <= offsets_end_) return true;
+  const long end = quiet_until(period_index);
+  if (end < 0) return false;
+  offsets_begin_ = period_index;
+  offsets_end_ = end;
+  periodic_offsets_.clear();
+  periodic_patterns_.clear();
   for (double x = 0.0;;) {
     const double e = next_edge_after(origin, x);
     if (!(e < run_period_s_ - resolution_s_)) break;
@@ -83,14 +93,13 @@ void GateBank::find_periodic_offsets(long double origin) const {
     x = e;
   }
   periodic_start_pattern_ = switch_pattern(static_cast<double>(origin));
-  offsets_found_ = true;
+  return true;
 }
 
 DevicePattern GateBank::switch_pattern_in_period(long period_index, long double origin,
                                                  double tau) const {
   const double t = static_cast<double>(origin + tau);
-  if (periodic_from_ < 0 || period_index < periodic_from_) return switch_pattern(t);
-  find_periodic_offsets(origin);
+  if (!find_periodic_offsets(period_index, origin)) return switch_pattern(t);
   if (tau == run_period_s_) return periodic_start_pattern_;  // the next period's start
   for (std::size_t i = 0; i < periodic_offsets_.size(); ++i)
     if (periodic_offsets_[i] == tau) return periodic_patterns_[i];

@@ -176,8 +176,11 @@ struct Simulation::Impl {
   std::vector<int> inductor_recorded;        // recorded index of each inductor current, or -1
   // Every source is constant: z keeps the inputs of the start, and no breakpoint ever comes.
   bool inputs_constant = false;
-  // The first period from which no source changes any more (-1: never, a sinusoid).
-  long inputs_settled_from = -1;
+  // The run period of every source breakpoint, sorted; whether a source is a sinusoid.
+  std::vector<long> breakpoint_periods;
+  bool inputs_oscillate = false;
+  // The stretch of quiet periods that the last call of quiet_until() found (see there).
+  long quiet_begin = 0, quiet_end = -1;
   // Replay of a repeating period (detail/period_replay.hpp): the steps of this period and of
   // the one before, whether this period can be one (no state event so far), and whether the
   // next period is replayed.
@@ -220,8 +223,9 @@ struct Simulation::Impl {
   std::vector<PeriodRecord> recent_periods;  // ring: period k in slot k % kRecurrenceDepth
   long recorded_run = 0;                     // consecutive periods in the ring, up to the last
   PeriodStart period_start;                  // of the period being computed
-  // Once a cycle closed: its first period and its length; every later period repeats one of it.
-  long cycle_first = -1, cycle_length = 0;
+  // Once a cycle closed: its first period and its length; every later period up to cycle_end
+  // (the end of the stretch of quiet periods it closed in) repeats one of it.
+  long cycle_first = -1, cycle_length = 0, cycle_end = -1;
 
   Impl(const Circuit& circuit, SimulationOptions opts) : model(circuit), options(std::move(opts)) {
     options.validate();
@@ -288,19 +292,16 @@ struct Simulation::Impl {
     }
     n_r = static_cast<int>(ramp_inputs.size());
     inputs_constant = true;
-    double constant_from_s = -kInf;
     for (int el : model.input_elements()) {
       const Waveform& w = model.circuit().elements()[el].waveform;
       inputs_constant &= w.kind() == Waveform::Kind::kConstant;
-      constant_from_s = std::max(constant_from_s, w.constant_from_s());
+      inputs_oscillate |= w.is_sinusoidal();
+      if (w.is_sinusoidal() || w.kind() == Waveform::Kind::kConstant) continue;
+      for (const auto& point : w.points())
+        breakpoint_periods.push_back(
+            static_cast<long>(std::floor(std::max(point.first, 0.0) / period_s)));
     }
-    // As a schedule in the gate bank: from the second period that begins after the last
-    // breakpoint, with a period of margin against a breakpoint on a period boundary.
-    inputs_settled_from =
-        inputs_constant ? 0
-        : std::isinf(constant_from_s)
-            ? -1
-            : static_cast<long>(std::floor(std::max(constant_from_s, 0.0) / period_s)) + 2;
+    std::sort(breakpoint_periods.begin(), breakpoint_periods.end());
     n_z = n_x + n_u + n_r;
     for (std::size_t d = 0; d < model.devices().size(); ++d)
       if (model.circuit().elements()[model.devices()[d]].kind == ElementKind::kDiode)
@@ -1459,6 +1460,7 @@ struct Simulation::Impl {
     recorded_run = 0;
     cycle_first = -1;
     cycle_length = 0;
+    cycle_end = -1;
   }
 
   void begin_cycle() {
@@ -1490,6 +1492,10 @@ struct Simulation::Impl {
 
   bool run_cycle(long k) {
     const long double origin = static_cast<long double>(k) * period_s;
+    if (cycle_length > 0 && k > cycle_end) {  // a disturbance ahead: compute again
+      cycle_length = 0;
+      recorded_run = 0;
+    }
     if (cycle_length > 0) {
       repeat_cycle(k, origin);
     } else if (!compute_cycle(k, origin)) {
@@ -1509,6 +1515,8 @@ struct Simulation::Impl {
 
   bool compute_cycle(long k, long double origin) {
     const double start = static_cast<double>(origin);
+    // The replay runs the steps of the period before: not across the end of a quiet stretch.
+    if (replay_next && !replay_allowed(k - 1)) replay_next = false;
     capture_period_start();
     begin_cycle();
     const int replayed = replay_next ? replay_cycle(origin) : 0;
@@ -1576,22 +1584,46 @@ struct Simulation::Impl {
            std::memcmp(s.z.data(), z.data(), sizeof(double) * static_cast<std::size_t>(n_z)) == 0;
   }
 
-  // Whether the periods from k on pose the same problem whenever they start in the same state:
-  // the gates repeat with the period and no source changes any more. A run with a load step or
-  // a line sag qualifies once the last change is behind it.
-  bool periods_repeat_from(long k) const {
-    return inputs_settled_from >= 0 && k >= inputs_settled_from && gates->periodic_at(k);
+  // The last period of the stretch of quiet periods that period k begins (-1: k is not quiet).
+  // In such a stretch every period poses the same problem whenever it starts in the same state:
+  // the gates repeat with the period (GateBank::quiet_until) and every source holds its value,
+  // with no breakpoint in the period or in the periods next to it. So the periods between a
+  // load step or a line sag and the next one can be replayed and repeated, but none across it.
+  long quiet_until(long k) {
+    if (k >= quiet_begin && k <= quiet_end) return quiet_end;
+    const long gates_end = gates->quiet_until(k);
+    const long end = gates_end < 0 ? -1 : std::min(gates_end, sources_quiet_until(k));
+    if (end >= k) {
+      quiet_begin = k;
+      quiet_end = end;
+    }
+    return end;
   }
+
+  long sources_quiet_until(long k) const {
+    if (inputs_constant) return detail::GateBank::kForever;
+    if (inputs_oscillate) return -1;
+    const auto next = std::lower_bound(breakpoint_periods.begin(), breakpoint_periods.end(), k - 1);
+    if (next != breakpoint_periods.end() && *next <= k + 1) return -1;
+    // No breakpoint within a period of k: every source is on one segment, flat or a ramp.
+    const double t_k = static_cast<double>(k) * period_s;
+    for (int el : model.input_elements())
+      if (model.circuit().elements()[el].waveform.slope(t_k) != 0.0) return -1;
+    return next == breakpoint_periods.end() ? detail::GateBank::kForever : *next - 2;
+  }
+
+  // Whether periods k and next (> k) lie in one stretch of quiet periods.
+  bool quiet_through(long k, long next) { return quiet_until(k) >= next; }
 
   // After computed period k: keep it, and look for a kept period that began where k ended.
   // The ODE path is left out: its steps depend on the absolute time.
-  bool repeat_allowed(long k) const {
+  bool repeat_allowed(long k) {
     return options.repeat_recurring_periods && !piece_observer && !nonlinear &&
-           periods_repeat_from(k);
+           quiet_through(k, k + 1);
   }
 
   void keep_period_record(long k) {
-    if (!repeat_allowed(k + 1) || cycle_metrics.state_change >= kRecurrenceWatch) {
+    if (!repeat_allowed(k) || cycle_metrics.state_change >= kRecurrenceWatch) {
       recorded_run = 0;
       return;
     }
@@ -1609,6 +1641,7 @@ struct Simulation::Impl {
       if (q.hash == end_hash && starts_here(q.start)) {
         cycle_first = j;
         cycle_length = k - j + 1;
+        cycle_end = quiet_until(k);
         summary.recurrence_periods = cycle_length;
         return;
       }
@@ -1644,9 +1677,9 @@ struct Simulation::Impl {
 
   // Whether period k can be recorded for a replay: its edges and sources repeat in every later
   // period, and nothing needs the pieces themselves.
-  bool replay_allowed(long k) const {
+  bool replay_allowed(long k) {
     return options.replay_repeating_periods && options.cache && !piece_observer && !nonlinear &&
-           periods_repeat_from(k);
+           quiet_through(k, k + 1);
   }
 
   // After a period of the piece engine: the next period is replayed when this one had no state

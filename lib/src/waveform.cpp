@@ -127,10 +127,4 @@ double Waveform::next_breakpoint_after(double t) const {
   return std::numeric_limits<double>::infinity();
 }
 
-double Waveform::constant_from_s() const {
-  if (kind_ == Kind::kConstant) return -std::numeric_limits<double>::infinity();
-  if (is_sinusoidal()) return std::numeric_limits<double>::infinity();
-  return points_.back().first;
-}
-
 }  // namespace pulsewise

@@ -64,9 +64,9 @@ struct SimulationOptions {
   double boundary_tolerance = 1e-3;
   // Cache configuration models and transition data (off only to check the cache).
   bool cache = true;
-  // Replay a switching period that repeats exactly (sources past their last breakpoint, gates
-  // periodic and past their last schedule change, no state event: CCM in steady state) from
-  // operators built once for its sequence of pieces, checked
+  // Replay a switching period that repeats exactly (gates periodic, sources holding their
+  // values, no gate schedule change or source breakpoint within a period; no state event: CCM in
+  // steady state) from operators built once for its sequence of pieces, checked
   // piece by piece and replaced by the piece engine where the period no longer repeats. Needs
   // `cache`; not used while an observer that wants every piece is attached
   // (Observer::wants_pieces_and_events). Off only to check it: results agree with the piece
@@ -74,10 +74,11 @@ struct SimulationOptions {
   bool replay_repeating_periods = true;
   // Once a period ends, to the bit, in the state a recent period began in (a steady state reached
   // to the last bit, or a short cycle of rounding), every later period takes the results of the
-  // period it repeats instead of being computed again. Needs sources past their last breakpoint
-  // (no sinusoid) and periodic gates past their last schedule change, so a run with a load step
-  // or a line sag repeats its periods again once the last change is behind it. Not used while an
-  // observer that wants every piece is attached. Off only to check it: results are identical.
+  // period it repeats instead of being computed again, up to the next gate schedule change or
+  // source breakpoint (a load step, a line sag): the periods around it are computed, and those
+  // after it repeat again once they recur. Needs periodic gates and sources that hold their
+  // values (no sinusoid). Not used while an observer that wants every piece is attached. Off
+  // only to check it: results are identical.
   bool repeat_recurring_periods = true;
   // Compute the pieces of configurations with at most 4 moving entries of the state (8 entries
   // with the inputs) by a kernel of fixed size, which does the same operations in the same order
@@ -180,7 +181,8 @@ struct RunSummary {
   long kernel_pieces = 0;     // pieces computed by SimulationOptions::small_block_kernel
   long operator_pieces = 0;   // pieces computed by SimulationOptions::reuse_piece_operators
   // SimulationOptions::repeat_recurring_periods: the periods taken from earlier ones, and the
-  // length of the cycle of states they repeat (1 for a steady state to the last bit; 0: none).
+  // length of the (last) cycle of states they repeat (1 for a steady state to the last bit;
+  // 0: none).
   long repeated_periods = 0;
   long recurrence_periods = 0;
   double wall_time_s = 0.0;

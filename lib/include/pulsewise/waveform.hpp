@@ -38,9 +38,6 @@ class Waveform {
   double slope(double t) const;
   // The first breakpoint strictly after t, or +infinity.
   double next_breakpoint_after(double t) const;
-  // The time from which the value never changes again, s: -infinity for a constant, the time of
-  // a step, the last point of a table; +infinity for a sine or a rectified sine.
-  double constant_from_s() const;
   // True when the waveform can have a non-zero slope somewhere (needs a ramp input).
   bool can_ramp() const { return kind_ >= Kind::kPiecewiseLinear; }
   bool is_sinusoidal() const { return kind_ == Kind::kSine || kind_ == Kind::kRectifiedSine; }

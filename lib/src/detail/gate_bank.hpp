@@ -3,6 +3,7 @@
 // edge as a scheduled event.
 #pragma once
 
+#include <limits>
 #include <string>
 #include <vector>
 
@@ -26,20 +27,21 @@ class GateBank {
   // double, so that the stretch from tau to the edge keeps the precision of tau rather than of
   // the absolute time (late in a long run the spacing of doubles at t exceeds 1e-12 T).
   double next_edge_after(long double origin, double tau) const;
-  // next_edge_after(origin, tau) inside run period `period_index` of length period_s. Once
-  // every switch gate repeats with that period and no duty ramps any more, the edge offsets of
-  // one period are found once and reused: the same offsets, without the long-double search.
+  // next_edge_after(origin, tau) inside run period `period_index` of length period_s. Over a
+  // stretch of quiet periods (quiet_until()) the edge offsets of its first period are found once
+  // and reused: the same offsets, without the long-double search.
   double next_edge_in_period(long period_index, long double origin, double tau) const;
   // switch_pattern(origin + tau) inside run period `period_index`. Where the edge offsets are
   // reused (next_edge_in_period()), the pattern just after each of them and at the period's
   // start is found once with them: at those offsets no gate is evaluated again.
   DevicePattern switch_pattern_in_period(long period_index, long double origin, double tau) const;
-  // True when the edges of run period `period_index` are those of every later period: every
-  // switch gate repeats with the run period, its duty ramp has ended, and any schedule has made
-  // its last change.
-  bool periodic_at(long period_index) const {
-    return periodic_from_ >= 0 && period_index >= periodic_from_;
-  }
+  // The last run period of the stretch of quiet periods that `period_index` begins, in which
+  // every period has the gate edges of the one before at the same offsets: every switch gate
+  // repeats with the run period, its duty ramp has ended, and no schedule changes in the period
+  // or in the periods next to it (one period of margin on each side). -1 when `period_index` is
+  // not quiet; kForever when the stretch never ends.
+  long quiet_until(long period_index) const;
+  static constexpr long kForever = std::numeric_limits<long>::max();
   // Mask of the switch bits in a DevicePattern.
   DevicePattern switch_mask() const { return switch_mask_; }
 
@@ -56,22 +58,24 @@ class GateBank {
   long double next_edge(const Gate& g, long double t) const;
   double duty_of_period(const Gate& g, long k) const;
   double just_after(double t) const;
-  // The second run period that begins after t_s (see the constructor).
-  long first_period_after(double t_s) const;
 
   std::vector<Gate> gates_;
   std::vector<std::pair<int, int>> switch_gate_;  // (device bit, gate index)
   DevicePattern switch_mask_ = 0;
   double resolution_s_;
-  // The reused offsets of next_edge_in_period(): periodic_from_ is the first run period from
-  // which they hold (-1: never, a gate runs at another period).
+  // periodic_from_: the first run period after every duty ramp (-1: never, a gate runs at
+  // another period). change_periods_: the run period of every schedule change, sorted.
   double run_period_s_ = 0.0;
   long periodic_from_ = -1;
-  mutable bool offsets_found_ = false;
+  std::vector<long> change_periods_;
+  // The reused offsets of next_edge_in_period(), valid for the run periods from offsets_begin_
+  // to offsets_end_ (a stretch of quiet periods).
+  mutable long offsets_begin_ = 0, offsets_end_ = -1;
   mutable std::vector<double> periodic_offsets_;
   mutable std::vector<DevicePattern> periodic_patterns_;  // just after each offset
   mutable DevicePattern periodic_start_pattern_ = 0;      // just after a period's start
-  void find_periodic_offsets(long double origin) const;
+  // Makes the reused offsets those of run period `period_index`; false when it is not quiet.
+  bool find_periodic_offsets(long period_index, long double origin) const;
 };
 
 }  // namespace pulsewise::detail
