@@ -70,7 +70,8 @@ long GateBank::quiet_until(long period_index) const {
 }
 
 double GateBank::next_edge_in_period(long period_index, long double origin, double tau) const {
-  if (!find_periodic_offsets(period_index, origin)) return next_edge_after(origin, tau);
+  if (!offsets_hold(period_index) && !find_periodic_offsets(period_index, origin))
+    return next_edge_after(origin, tau);
   const double slack = std::max<double>(resolution_s_, 8 * std::abs(origin + tau) * 1e-19L);
   for (double e : periodic_offsets_)
     if (e > tau + slack) return e;
@@ -78,7 +79,6 @@ double GateBank::next_edge_in_period(long period_index, long double origin, doub
 }
 
 bool GateBank::find_periodic_offsets(long period_index, long double origin) const {
-  if (period_index >= offsets_begin_ && period_index <= offsets_end_) return true;
   const long end = quiet_until(period_index);
   if (end < 0) return false;
   offsets_begin_ = period_index;
@@ -99,7 +99,8 @@ bool GateBank::find_periodic_offsets(long period_index, long double origin) cons
 DevicePattern GateBank::switch_pattern_in_period(long period_index, long double origin,
                                                  double tau) const {
   const double t = static_cast<double>(origin + tau);
-  if (!find_periodic_offsets(period_index, origin)) return switch_pattern(t);
+  if (!offsets_hold(period_index) && !find_periodic_offsets(period_index, origin))
+    return switch_pattern(t);
   if (tau == run_period_s_) return periodic_start_pattern_;  // the next period's start
   for (std::size_t i = 0; i < periodic_offsets_.size(); ++i)
     if (periodic_offsets_[i] == tau) return periodic_patterns_[i];

@@ -1590,7 +1590,10 @@ struct Simulation::Impl {
   // with no breakpoint in the period or in the periods next to it. So the periods between a
   // load step or a line sag and the next one can be replayed and repeated, but none across it.
   long quiet_until(long k) {
-    if (k >= quiet_begin && k <= quiet_end) return quiet_end;
+    return k >= quiet_begin && k <= quiet_end ? quiet_end : find_quiet_stretch(k);
+  }
+
+  [[gnu::noinline]] long find_quiet_stretch(long k) {
     const long gates_end = gates->quiet_until(k);
     const long end = gates_end < 0 ? -1 : std::min(gates_end, sources_quiet_until(k));
     if (end >= k) {

@@ -74,6 +74,9 @@ class GateBank {
   mutable std::vector<double> periodic_offsets_;
   mutable std::vector<DevicePattern> periodic_patterns_;  // just after each offset
   mutable DevicePattern periodic_start_pattern_ = 0;      // just after a period's start
+  bool offsets_hold(long period_index) const {
+    return period_index >= offsets_begin_ && period_index <= offsets_end_;
+  }
   // Makes the reused offsets those of run period `period_index`; false when it is not quiet.
   bool find_periodic_offsets(long period_index, long double origin) const;
 };
