@@ -9,6 +9,11 @@
 //   baseline_a_rk4/<case>    fixed-step RK4 at the step that meets 1e-6 relative (found first by
 //                            halving the step; the search is printed on stderr)
 //   baseline_b_dopri5/<case> Boost.Odeint dopri5, dense output, tolerances 1e-9, bisected events
+//   scenario/<name>          a shipped demo scenario with disturbances (data/<name>.toml: a load
+//                            step and its release, a line sag), run as written
+//   scenario_computed/<name> the same with the replay and the repeat off: every period computed
+//                            by the piece engine, the baseline for what the quiet stretches
+//                            between the disturbances give
 //
 // Counters: periods_per_s (CPU time; the machine is shared, so CPU time is the steadier measure),
 // rel_error = |final cycle average of the output - reference| / |reference| against the
@@ -31,6 +36,9 @@
 
 #ifndef PWBENCH_DATA_DIR
 #error "PWBENCH_DATA_DIR must name bench/data"
+#endif
+#ifndef PWBENCH_SCENARIO_DIR
+#error "PWBENCH_SCENARIO_DIR must name data/"
 #endif
 
 namespace {
@@ -99,6 +107,19 @@ void set_common_counters(benchmark::State& state, double average, double error) 
   state.counters["final_average_v"] = average;
 }
 
+struct RunSummaryCounts {
+  long replayed = 0, repeated = 0;
+  double output_average = 0.0;
+};
+
+// The recorded signal that the run names as its output.
+std::size_t output_index(const pulsewise::RunSummary& summary,
+                         const pulsewise::SimulationOptions& options) {
+  for (std::size_t k = 0; k < summary.recorded.size(); ++k)
+    if (summary.recorded[k].name == options.output_signal) return k;
+  throw std::runtime_error("the output signal " + options.output_signal + " is not recorded");
+}
+
 template <template <class> class Case, bool kRepeat>
 void bm_pulsewise(benchmark::State& state) {
   const std::string path = case_file(Case<double>::kName);
@@ -116,10 +137,7 @@ void bm_pulsewise(benchmark::State& state) {
       state.SkipWithError(summary.message.c_str());
       return;
     }
-    int output = -1;
-    for (std::size_t k = 0; k < summary.recorded.size(); ++k)
-      if (summary.recorded[k].name == file.simulation.output_signal) output = static_cast<int>(k);
-    average = summary.last_cycle.signals.at(output).average;
+    average = summary.last_cycle.signals.at(output_index(summary, options)).average;
     repeated = summary.repeated_periods;
   }
   set_common_counters(state, average, relative_error<Case>(average));
@@ -156,6 +174,40 @@ void bm_baseline_b(benchmark::State& state) {
   state.counters["steps_per_period"] = static_cast<double>(r.steps) / kPeriods;
 }
 
+// A demo scenario as written (fast) or with every period computed by the piece engine.
+void bm_scenario(benchmark::State& state, const std::string& name, bool fast) {
+  const std::string path = std::string(PWBENCH_SCENARIO_DIR) + "/" + name + ".toml";
+  RunSummaryCounts counts;
+  long periods = 0;
+  for (auto _ : state) {
+    const pulsewise::CircuitFile file = pulsewise::load_circuit_file(path);
+    pulsewise::SimulationOptions options = file.simulation;
+    options.replay_repeating_periods = fast;
+    options.repeat_recurring_periods = fast;
+    periods = options.periods;
+    const pulsewise::RunSummary summary = pulsewise::Simulation(file.circuit, options).run();
+    if (!summary.ok()) {
+      state.SkipWithError(summary.message.c_str());
+      return;
+    }
+    counts = {summary.replayed_periods, summary.repeated_periods,
+              summary.last_cycle.signals.at(output_index(summary, options)).average};
+  }
+  state.counters["periods_per_s"] = benchmark::Counter(
+      static_cast<double>(periods), benchmark::Counter::kIsIterationInvariantRate);
+  state.counters["replayed_periods"] = static_cast<double>(counts.replayed);
+  state.counters["repeated_periods"] = static_cast<double>(counts.repeated);
+  state.counters["final_average_v"] = counts.output_average;
+}
+
+void register_scenario(const std::string& name) {
+  for (auto* b :
+       {benchmark::RegisterBenchmark(("scenario/" + name).c_str(), bm_scenario, name, true),
+        benchmark::RegisterBenchmark(("scenario_computed/" + name).c_str(), bm_scenario, name,
+                                     false)})
+    b->Unit(benchmark::kMillisecond)->MinTime(0.2);
+}
+
 template <template <class> class Case>
 void register_case() {
   const std::string name(Case<double>::kName);
@@ -175,6 +227,8 @@ int main(int argc, char** argv) {
   register_case<pwbench::SyncBuck>();
   register_case<pwbench::InterleavedBuck>();
   register_case<pwbench::DcmSepic>();
+  register_scenario("rack-sync-buck");
+  register_scenario("wide-input-sepic");
   benchmark::Initialize(&argc, argv);
   if (benchmark::ReportUnrecognizedArguments(argc, argv)) return 1;
   benchmark::RunSpecifiedBenchmarks();
