@@ -1536,7 +1536,7 @@ struct Simulation::Impl {
 
   // ---- repeat of periods whose states recur -------------------------------------------------
   //
-  // Once the sources no longer change and the gates repeat with the period (periods_repeat_from),
+  // Inside a stretch of quiet periods (quiet_until: the gates repeat, the sources hold still),
   // a period's results depend only on where it starts (PeriodStart). Near the steady state the
   // start of each period is kept, with its results, for the last kRecurrenceDepth periods. A period
   // that ends, to the bit, where a kept period began closes a cycle: every later period poses the
