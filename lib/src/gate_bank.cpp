@@ -47,8 +47,7 @@ GateBank::GateBank(const Circuit& circuit, const std::vector<int>& devices,
     const Gate& g = gates_[gate];
     if (g.kind == Kind::kSchedule) {
       for (const auto& change : g.schedule->changes)
-        change_periods_.push_back(
-            static_cast<long>(std::floor(std::max(change.first, 0.0) / run_period_s_)));
+        change_periods_.push_back(run_period_of(change.first, run_period_s_));
       continue;
     }
     if (g.period_s != run_period_s_) {
@@ -60,13 +59,21 @@ GateBank::GateBank(const Circuit& circuit, const std::vector<int>& devices,
   std::sort(change_periods_.begin(), change_periods_.end());
 }
 
-long GateBank::quiet_until(long period_index) const {
-  if (periodic_from_ < 0 || period_index < periodic_from_) return -1;
+long run_period_of(double t_s, double run_period_s) {
+  return static_cast<long>(std::floor(std::max(t_s, 0.0) / run_period_s));
+}
+
+long quiet_stretch_end(const std::vector<long>& change_periods, long period_index) {
   // The first change in period_index - 1 or later: inside the margin, or the stretch's end.
   const auto next =
-      std::lower_bound(change_periods_.begin(), change_periods_.end(), period_index - 1);
-  if (next == change_periods_.end()) return kForever;
+      std::lower_bound(change_periods.begin(), change_periods.end(), period_index - 1);
+  if (next == change_periods.end()) return kForever;
   return *next <= period_index + 1 ? -1 : *next - 2;
+}
+
+long GateBank::quiet_until(long period_index) const {
+  if (periodic_from_ < 0 || period_index < periodic_from_) return -1;
+  return quiet_stretch_end(change_periods_, period_index);
 }
 
 double GateBank::next_edge_in_period(long period_index, long double origin, double tau) const {

@@ -298,8 +298,7 @@ struct Simulation::Impl {
       inputs_oscillate |= w.is_sinusoidal();
       if (w.is_sinusoidal() || w.kind() == Waveform::Kind::kConstant) continue;
       for (const auto& point : w.points())
-        breakpoint_periods.push_back(
-            static_cast<long>(std::floor(std::max(point.first, 0.0) / period_s)));
+        breakpoint_periods.push_back(detail::run_period_of(point.first, period_s));
     }
     std::sort(breakpoint_periods.begin(), breakpoint_periods.end());
     n_z = n_x + n_u + n_r;
@@ -1604,15 +1603,15 @@ struct Simulation::Impl {
   }
 
   long sources_quiet_until(long k) const {
-    if (inputs_constant) return detail::GateBank::kForever;
+    if (inputs_constant) return detail::kForever;
     if (inputs_oscillate) return -1;
-    const auto next = std::lower_bound(breakpoint_periods.begin(), breakpoint_periods.end(), k - 1);
-    if (next != breakpoint_periods.end() && *next <= k + 1) return -1;
+    const long end = detail::quiet_stretch_end(breakpoint_periods, k);
+    if (end < 0) return -1;
     // No breakpoint within a period of k: every source is on one segment, flat or a ramp.
     const double t_k = static_cast<double>(k) * period_s;
     for (int el : model.input_elements())
       if (model.circuit().elements()[el].waveform.slope(t_k) != 0.0) return -1;
-    return next == breakpoint_periods.end() ? detail::GateBank::kForever : *next - 2;
+    return end;
   }
 
   // Whether periods k and next (> k) lie in one stretch of quiet periods.

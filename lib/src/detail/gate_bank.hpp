@@ -12,6 +12,16 @@
 
 namespace pulsewise::detail {
 
+// The run period that contains time t_s (times before 0 count as period 0).
+long run_period_of(double t_s, double run_period_s);
+
+// The margin rule of a stretch of quiet periods, for gate schedule changes and source
+// breakpoints alike: `change_periods` (sorted) holds the run period of every change. Period k is
+// quiet when no change falls in periods k - 1 to k + 1; its stretch then ends two periods before
+// the next change. Returns that last period, -1 when k is not quiet, or kForever.
+inline constexpr long kForever = std::numeric_limits<long>::max();
+long quiet_stretch_end(const std::vector<long>& change_periods, long period_index);
+
 class GateBank {
  public:
   // time_resolution_s: edges closer than this to t count as already passed at t.
@@ -41,7 +51,6 @@ class GateBank {
   // or in the periods next to it (one period of margin on each side). -1 when `period_index` is
   // not quiet; kForever when the stretch never ends.
   long quiet_until(long period_index) const;
-  static constexpr long kForever = std::numeric_limits<long>::max();
   // Mask of the switch bits in a DevicePattern.
   DevicePattern switch_mask() const { return switch_mask_; }
 
