@@ -1614,14 +1614,14 @@ struct Simulation::Impl {
     return end;
   }
 
-  // Whether periods k and next (> k) lie in one stretch of quiet periods.
-  bool quiet_through(long k, long next) { return quiet_until(k) >= next; }
+  // Whether period k + 1 lies in the stretch of quiet periods of period k.
+  bool next_period_alike(long k) { return quiet_until(k) > k; }
 
   // After computed period k: keep it, and look for a kept period that began where k ended.
   // The ODE path is left out: its steps depend on the absolute time.
   bool repeat_allowed(long k) {
     return options.repeat_recurring_periods && !piece_observer && !nonlinear &&
-           quiet_through(k, k + 1);
+           next_period_alike(k);
   }
 
   void keep_period_record(long k) {
@@ -1681,7 +1681,7 @@ struct Simulation::Impl {
   // period, and nothing needs the pieces themselves.
   bool replay_allowed(long k) {
     return options.replay_repeating_periods && options.cache && !piece_observer && !nonlinear &&
-           quiet_through(k, k + 1);
+           next_period_alike(k);
   }
 
   // After a period of the piece engine: the next period is replayed when this one had no state
